@@ -1,0 +1,96 @@
+import { QueryClientProvider, useQuery } from '@tanstack/react-query';
+import { getQueryClient } from '../../lib/query-client';
+import { fleetQuery, type FleetResponse } from './fleet.queries';
+import { StateBadge } from '../../components/StateBadge';
+import type { FleetLoop } from '../../lib/server/spacecraft';
+
+function shapeText(shape: FleetLoop['shape']): string {
+  if (shape.kind === 'circle') return `circle, R ${(shape.radius_m * 1000).toFixed(0)} mm`;
+  return `rounded rectangle ${(shape.width_m * 1000).toFixed(0)} × ${(shape.height_m * 1000).toFixed(0)} mm`;
+}
+
+function axisText(axis: [number, number, number]): string {
+  return `[${axis.map((a) => (Math.abs(a) < 5e-4 ? '0' : a.toFixed(3).replace(/\.?0+$/, ''))).join(', ')}]`;
+}
+
+function FleetTable({ initial }: { initial: FleetResponse }) {
+  const q = useQuery({ ...fleetQuery, initialData: initial });
+  if (q.isPending) return <p className="text-muted">Loading the fleet…</p>;
+  if (q.isError)
+    return (
+      <div role="alert" className="panel border-warning/40 p-4 text-warning">
+        The fleet could not be loaded: {q.error.message}{' '}
+        <button className="btn ml-2" onClick={() => q.refetch()}>
+          Try again
+        </button>
+      </div>
+    );
+  const fleet = q.data.spacecraft;
+  if (fleet.length === 0)
+    return (
+      <div className="panel p-6">
+        <h2>No spacecraft yet</h2>
+        <p className="mt-1 text-muted">
+          An engineer adds a spacecraft by posting its sheet (mass properties and loop geometry) to <code>POST /api/spacecraft</code>.
+        </p>
+      </div>
+    );
+  return (
+    <div className="grid gap-4 md:grid-cols-2 xl:grid-cols-3">
+      {fleet.map((sc) => (
+        <article key={sc.key} className="panel" aria-label={`Spacecraft ${sc.key}`}>
+          <header className="flex items-baseline justify-between border-b border-rule px-4 py-3">
+            <div>
+              <h2 className="text-base">{sc.key}</h2>
+              <p className="text-xs text-muted">{sc.name}</p>
+            </div>
+            <span className="text-xs text-muted">
+              {sc.loops.length} loop{sc.loops.length === 1 ? '' : 's'}
+            </span>
+          </header>
+          <table className="table-compact">
+            <thead>
+              <tr>
+                <th>Loop</th>
+                <th>Geometry</th>
+                <th>Axis</th>
+                <th className="n">Rated</th>
+                <th>State</th>
+              </tr>
+            </thead>
+            <tbody>
+              {sc.loops.map((l) => (
+                <tr key={l.id}>
+                  <td className="num">L{l.id}</td>
+                  <td>
+                    {shapeText(l.shape)}
+                    {l.pumpStations > 1 ? `, ${l.pumpStations} pumps` : ''}
+                  </td>
+                  <td className="num text-muted">{axisText(l.axis)}</td>
+                  <td className="n">
+                    {l.ratedCurrent_A.toFixed(0)} <span className="unit">A</span>
+                  </td>
+                  <td>
+                    <StateBadge state="stale" />
+                  </td>
+                </tr>
+              ))}
+            </tbody>
+          </table>
+          <footer className="px-4 py-2 text-xs text-muted">
+            Sheet in force from {sc.sheetEffectiveFrom ? sc.sheetEffectiveFrom.slice(0, 16).replace('T', ' ') + ' UTC' : '—'}
+          </footer>
+        </article>
+      ))}
+    </div>
+  );
+}
+
+/** The Fleet island: every spacecraft with its loops. */
+export default function Fleet({ initial }: { initial: FleetResponse }) {
+  return (
+    <QueryClientProvider client={getQueryClient()}>
+      <FleetTable initial={initial} />
+    </QueryClientProvider>
+  );
+}

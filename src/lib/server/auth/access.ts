@@ -1,0 +1,27 @@
+import type { Access } from './roles';
+
+type Method = 'GET' | 'POST' | 'PUT' | 'PATCH' | 'DELETE';
+
+/**
+ * Deny by default: every route pattern of src/pages has a rule here, per method. A route with no
+ * rule is refused (and the route × role test fails until one is written).
+ */
+export const routeRules: Record<string, Partial<Record<Method, Access>>> = {
+  '/sign-in': { GET: 'public', POST: 'public' },
+  '/forbidden': { GET: 'signed-in' },
+  '/api/auth/sign-in': { POST: 'public' },
+  '/api/auth/sign-out': { POST: 'signed-in' },
+  '/api/me': { GET: 'signed-in' },
+  '/': { GET: 'signed-in' },
+  '/api/spacecraft': { GET: 'signed-in', POST: ['engineer', 'admin'] },
+  '/admin/people': { GET: ['admin'] },
+  '/api/people': { GET: ['admin'] },
+};
+
+/** The access rule for a route pattern and method, or null when there is none (deny). */
+export function accessFor(routePattern: string, method: string): Access | null {
+  const rule = routeRules[routePattern];
+  if (!rule) return null;
+  const m = (method === 'HEAD' ? 'GET' : method) as Method;
+  return rule[m] ?? null;
+}

@@ -1,0 +1,28 @@
+import type { AstroCookies } from 'astro';
+import { z } from 'zod';
+import { lucia } from './lucia';
+
+export const signInInputSchema = z.object({
+  email: z.string().trim().min(1, 'Enter your e-mail address.').email('Enter a valid e-mail address.'),
+  password: z.string().min(1, 'Enter your password.').max(200, 'That password is too long.'),
+});
+export type SignInInput = z.infer<typeof signInInputSchema>;
+
+/** Open a session for the user and set its cookie. */
+export async function startSession(cookies: AstroCookies, userId: string): Promise<void> {
+  const session = await lucia.createSession(userId, {});
+  const c = lucia.createSessionCookie(session.id);
+  cookies.set(c.name, c.value, c.attributes);
+}
+
+/** End the session (if any) and blank the cookie. */
+export async function endSession(cookies: AstroCookies, sessionId: string | null): Promise<void> {
+  if (sessionId) await lucia.invalidateSession(sessionId);
+  const c = lucia.createBlankSessionCookie();
+  cookies.set(c.name, c.value, c.attributes);
+}
+
+/** Only same-site relative paths may be a post-sign-in destination. */
+export function safeNext(next: string | null | undefined): string {
+  return next && next.startsWith('/') && !next.startsWith('//') ? next : '/';
+}

@@ -1,0 +1,99 @@
+import fs from 'node:fs';
+import path from 'node:path';
+import { beforeAll, describe, expect, it } from 'vitest';
+import { Client, clientAs, type TestRole } from './support';
+
+/**
+ * Route × role matrix. Every route file under src/pages must appear here with every method it
+ * exports; the expected access is written here independently of the app's own rule table.
+ * 'public' = anyone; 'signed-in' = any role; else the roles that may pass.
+ */
+type Who = 'public' | 'signed-in' | TestRole[];
+interface Entry {
+  /** A concrete path to request (route params filled in). */
+  path: string;
+  methods: Partial<Record<'GET' | 'POST' | 'PUT' | 'PATCH' | 'DELETE', Who>>;
+  /** The status an allowed caller gets when it is not an ordinary success (the 403 page itself). */
+  allowedStatus?: number;
+}
+
+export const MATRIX: Record<string, Entry> = {
+  '/': { path: '/', methods: { GET: 'signed-in' } },
+  '/sign-in': { path: '/sign-in', methods: { GET: 'public', POST: 'public' } },
+  '/forbidden': { path: '/forbidden', methods: { GET: 'signed-in' }, allowedStatus: 403 },
+  '/admin/people': { path: '/admin/people', methods: { GET: ['admin'] } },
+  '/api/auth/sign-in': { path: '/api/auth/sign-in', methods: { POST: 'public' } },
+  '/api/auth/sign-out': { path: '/api/auth/sign-out', methods: { POST: 'signed-in' } },
+  '/api/me': { path: '/api/me', methods: { GET: 'signed-in' } },
+  '/api/people': { path: '/api/people', methods: { GET: ['admin'] } },
+  '/api/spacecraft': { path: '/api/spacecraft', methods: { GET: 'signed-in', POST: ['engineer', 'admin'] } },
+};
+
+const ROLES: TestRole[] = ['operator', 'analyst', 'engineer', 'admin'];
+
+/** Route patterns and methods as the files in src/pages declare them. */
+function discoverRoutes(): Map<string, Set<string>> {
+  const root = path.resolve('src/pages');
+  const out = new Map<string, Set<string>>();
+  const walk = (dir: string) => {
+    for (const f of fs.readdirSync(dir, { withFileTypes: true })) {
+      const full = path.join(dir, f.name);
+      if (f.isDirectory()) walk(full);
+      else if (/\.(astro|ts)$/.test(f.name)) {
+        let route = '/' + path.relative(root, full).replace(/\.(astro|ts)$/, '').replace(/(^|\/)index$/, '');
+        route = route.replace(/\/$/, '') || '/';
+        const text = fs.readFileSync(full, 'utf8');
+        const methods = new Set<string>();
+        if (f.name.endsWith('.astro')) {
+          methods.add('GET');
+          if (/Astro\.request\.method === 'POST'/.test(text)) methods.add('POST');
+        } else {
+          for (const m of text.matchAll(/export const (GET|POST|PUT|PATCH|DELETE)\b/g)) methods.add(m[1]!);
+        }
+        out.set(route, methods);
+      }
+    }
+  };
+  walk(root);
+  return out;
+}
+
+describe('route × role matrix', () => {
+  const clients: Partial<Record<TestRole | 'anonymous', Client>> = {};
+  beforeAll(async () => {
+    clients.anonymous = new Client();
+    for (const r of ROLES) clients[r] = await clientAs(r);
+  });
+
+  it('has an entry for every route and method in src/pages, and no stale entries', () => {
+    const found = discoverRoutes();
+    const declared = new Map(Object.entries(MATRIX).map(([k, v]) => [k, new Set(Object.keys(v.methods))]));
+    expect([...found.keys()].sort()).toEqual([...declared.keys()].sort());
+    for (const [route, methods] of found) expect([...methods].sort(), route).toEqual([...declared.get(route)!].sort());
+  });
+
+  for (const [route, entry] of Object.entries(MATRIX)) {
+    for (const [method, who] of Object.entries(entry.methods)) {
+      it(`${method} ${route}`, async () => {
+        const isApi = route.startsWith('/api/');
+        for (const role of ['anonymous', ...ROLES] as const) {
+          // Sign-out would end the shared session; check it on a fresh one.
+          const c = route === '/api/auth/sign-out' && role !== 'anonymous' ? await clientAs(role) : clients[role]!;
+          const res = await c.request(method, entry.path, method === 'GET' ? {} : { json: {} });
+          const allowed = who === 'public' || (role !== 'anonymous' && (who === 'signed-in' || who.includes(role)));
+          const label = `${method} ${entry.path} as ${role} → ${res.status}`;
+          if (allowed && entry.allowedStatus) {
+            expect(res.status, label).toBe(entry.allowedStatus);
+          } else if (allowed) {
+            expect([401, 403], label).not.toContain(res.status);
+            expect(res.status, label).toBeLessThan(500);
+          } else if (role === 'anonymous') {
+            expect(res.status, label).toBe(isApi ? 401 : 302);
+          } else {
+            expect(res.status, label).toBe(403);
+          }
+        }
+      });
+    }
+  }
+});
