@@ -27,6 +27,14 @@ export const MATRIX: Record<string, Entry> = {
   '/api/me': { path: '/api/me', methods: { GET: 'signed-in' } },
   '/api/people': { path: '/api/people', methods: { GET: ['admin'] } },
   '/api/spacecraft': { path: '/api/spacecraft', methods: { GET: 'signed-in', POST: ['engineer', 'admin'] } },
+  // Ingest authenticates by ingest token, so without one everybody gets 401.
+  '/api/ingest': { path: '/api/ingest', methods: { POST: 'public' }, allowedStatus: 401 },
+  '/api/uploads': { path: '/api/uploads', methods: { GET: 'signed-in' } },
+  '/api/uploads/packets': { path: '/api/uploads/packets?spacecraft=MR-1', methods: { POST: ['operator', 'engineer', 'admin'] } },
+  '/api/uploads/[id]/reingest': { path: '/api/uploads/999999/reingest', methods: { POST: ['operator', 'engineer', 'admin'] } },
+  '/api/spacecraft/[key]/sheets': { path: '/api/spacecraft/MR-1/sheets', methods: { GET: 'signed-in', POST: ['engineer', 'admin'] } },
+  '/api/spacecraft/[key]/tokens': { path: '/api/spacecraft/MR-1/tokens', methods: { GET: ['admin'], POST: ['admin'] } },
+  '/api/spacecraft/[key]/tokens/[id]': { path: '/api/spacecraft/MR-1/tokens/999999', methods: { DELETE: ['admin'] } },
 };
 
 const ROLES: TestRole[] = ['operator', 'analyst', 'engineer', 'admin'];

@@ -16,6 +16,14 @@ export const routeRules: Record<string, Partial<Record<Method, Access>>> = {
   '/api/spacecraft': { GET: 'signed-in', POST: ['engineer', 'admin'] },
   '/admin/people': { GET: ['admin'] },
   '/api/people': { GET: ['admin'] },
+  // Telemetry ingest authenticates by ingest token (checked in the endpoint), not by session.
+  '/api/ingest': { POST: 'public' },
+  '/api/uploads': { GET: 'signed-in' },
+  '/api/uploads/packets': { POST: ['operator', 'engineer', 'admin'] },
+  '/api/uploads/[id]/reingest': { POST: ['operator', 'engineer', 'admin'] },
+  '/api/spacecraft/[key]/sheets': { GET: 'signed-in', POST: ['engineer', 'admin'] },
+  '/api/spacecraft/[key]/tokens': { GET: ['admin'], POST: ['admin'] },
+  '/api/spacecraft/[key]/tokens/[id]': { DELETE: ['admin'] },
 };
 
 /** The access rule for a route pattern and method, or null when there is none (deny). */

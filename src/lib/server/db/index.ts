@@ -5,6 +5,8 @@ import { config } from '../config';
 
 // int8 (counts, bigserial ids) → number: every value Millrace stores fits in 2^53.
 pg.types.setTypeParser(20, (v) => Number(v));
+// float4 → the exact binary32 value (PostgreSQL prints the shortest text that reads back as it).
+pg.types.setTypeParser(700, (v) => Math.fround(Number(v)));
 // numeric → number
 pg.types.setTypeParser(1700, (v) => Number(v));
 

@@ -1,0 +1,140 @@
+import fs from 'node:fs';
+import path from 'node:path';
+import { createHash } from 'node:crypto';
+import { Readable } from 'node:stream';
+import busboy from 'busboy';
+import type pg from 'pg';
+import type { Kysely } from 'kysely';
+import type { Database } from './db/schema';
+import { HttpError } from './http';
+import { ingestStream, type IngestReport } from './ingest';
+import { insertAuditEntry } from './audit';
+
+export interface UploadReport extends IngestReport {
+  uploadId: number;
+  bytes: number;
+  idle: number;
+  sha256: string | null;
+}
+
+function safeName(name: string): string {
+  return (path.basename(name || 'pass.bin').replace(/[^A-Za-z0-9._-]+/g, '_').slice(0, 80) || 'pass.bin');
+}
+
+/** Receive a multipart upload (field `file`), keep the file, and ingest it as it streams in. */
+export async function receivePacketUpload(
+  pool: pg.Pool,
+  db: Kysely<Database>,
+  request: Request,
+  meta: { spacecraftId: number; stationId: number | null; actorId: string; dir: string },
+): Promise<UploadReport> {
+  const type = request.headers.get('content-type') ?? '';
+  if (!type.startsWith('multipart/form-data')) throw new HttpError('BAD_REQUEST', 'Send the pass file as multipart/form-data in the field "file".', { file: ['required'] });
+  if (!request.body) throw new HttpError('BAD_REQUEST', 'The upload is empty.', { file: ['required'] });
+  fs.mkdirSync(meta.dir, { recursive: true });
+
+  return new Promise<UploadReport>((resolve, reject) => {
+    let handled = false;
+    const bb = busboy({ headers: { 'content-type': type }, limits: { files: 1, fields: 10 } });
+    bb.on('file', (field, stream, info) => {
+      if (field !== 'file' || handled) {
+        stream.resume();
+        return;
+      }
+      handled = true;
+      storeUploadedStream(pool, db, stream, info.filename ?? "pass.bin", meta).then(resolve, reject);
+    });
+    bb.on('error', (err) => reject(new HttpError('BAD_REQUEST', `The multipart body could not be read: ${(err as Error).message}`)));
+    bb.on('close', () => {
+      if (!handled) reject(new HttpError('BAD_REQUEST', 'No file in the field "file".', { file: ['required'] }));
+    });
+    Readable.fromWeb(request.body as import('node:stream/web').ReadableStream).pipe(bb);
+  });
+}
+
+async function storeUploadedStream(
+  pool: pg.Pool,
+  db: Kysely<Database>,
+  stream: Readable,
+  fileName: string,
+  meta: { spacecraftId: number; stationId: number | null; actorId: string; dir: string },
+): Promise<UploadReport> {
+  const row = await db
+    .insertInto('packet_upload')
+    .values({ spacecraft_id: meta.spacecraftId, file_name: fileName || 'pass.bin', stored_path: '', station_id: meta.stationId, uploaded_by: meta.actorId })
+    .returning('id')
+    .executeTakeFirstOrThrow();
+  const stored = path.join(meta.dir, `${row.id}-${safeName(fileName)}`);
+  await db.updateTable('packet_upload').set({ stored_path: stored }).where('id', '=', row.id).execute();
+  const hash = createHash('sha256');
+  const out = fs.createWriteStream(stored);
+  async function* teed(): AsyncGenerator<Uint8Array> {
+    for await (const chunk of stream) {
+      const c = chunk as Buffer;
+      hash.update(c);
+      if (!out.write(c)) await new Promise<void>((r) => out.once('drain', () => r()));
+      yield new Uint8Array(c.buffer, c.byteOffset, c.byteLength);
+    }
+  }
+  try {
+    const r = await ingestStream(pool, db, teed(), { spacecraftId: meta.spacecraftId, stationId: meta.stationId, uploadId: row.id });
+    await new Promise<void>((res, rej) => out.end((err?: Error | null) => (err ? rej(err) : res())));
+    const sha256 = hash.digest('hex');
+    const report: UploadReport = { uploadId: row.id, sha256, ...r };
+    await db
+      .updateTable('packet_upload')
+      .set({ bytes: r.bytes, sha256, status: 'done', report: JSON.stringify(summary(report)) })
+      .where('id', '=', row.id)
+      .execute();
+    await insertAuditEntry(db, { actorId: meta.actorId, action: 'upload.ingest', targetType: 'packet_upload', targetId: row.id, detail: summary(report) });
+    return report;
+  } catch (err) {
+    out.destroy();
+    await db.updateTable('packet_upload').set({ status: 'failed', report: JSON.stringify({ error: String(err) }) }).where('id', '=', row.id).execute();
+    throw err;
+  }
+}
+
+/** The stored form of a report: counts, and the first rejects and gaps. */
+function summary(r: UploadReport) {
+  return {
+    bytes: r.bytes,
+    accepted: r.accepted,
+    duplicates: r.duplicates,
+    idle: r.idle,
+    rejectedCount: r.rejected.length,
+    rejected: r.rejected.slice(0, 200),
+    gapCount: r.gaps.length,
+    gaps: r.gaps.slice(0, 200),
+  };
+}
+
+/** Ingest a kept pass file again (duplicates are counted, nothing changes twice). */
+export async function reingestUpload(pool: pg.Pool, db: Kysely<Database>, uploadId: number, actorId: string): Promise<UploadReport> {
+  const up = await db.selectFrom('packet_upload').select(['id', 'spacecraft_id', 'station_id', 'stored_path', 'sha256']).where('id', '=', uploadId).executeTakeFirst();
+  if (!up) throw new HttpError('NOT_FOUND', `No upload ${uploadId}.`);
+  if (!up.stored_path || !fs.existsSync(up.stored_path)) throw new HttpError('NOT_FOUND', `The file of upload ${uploadId} is no longer on disk.`);
+  const r = await ingestStream(pool, db, fs.createReadStream(up.stored_path, { highWaterMark: 1 << 20 }), {
+    spacecraftId: up.spacecraft_id,
+    stationId: up.station_id,
+    uploadId: up.id,
+  });
+  const report: UploadReport = { uploadId: up.id, sha256: up.sha256, ...r };
+  await db.updateTable('packet_upload').set({ status: 'done', report: JSON.stringify(summary(report)) }).where('id', '=', up.id).execute();
+  await insertAuditEntry(db, { actorId, action: 'upload.reingest', targetType: 'packet_upload', targetId: up.id, detail: summary(report) });
+  return report;
+}
+
+/** Recent uploads, newest first. */
+export function listUploads(db: Kysely<Database>, spacecraftId?: number) {
+  let q = db
+    .selectFrom('packet_upload as p')
+    .innerJoin('spacecraft as s', 's.id', 'p.spacecraft_id')
+    .leftJoin('app_user as u', 'u.id', 'p.uploaded_by')
+    .leftJoin('ground_station as g', 'g.id', 'p.station_id')
+    .select(['p.id', 's.key as spacecraft', 'p.file_name', 'p.bytes', 'p.sha256', 'p.status', 'p.report', 'p.uploaded_at', 'u.name as uploaded_by', 'g.key as station'])
+    .orderBy('p.uploaded_at', 'desc')
+    .limit(50);
+  if (spacecraftId !== undefined) q = q.where('p.spacecraft_id', '=', spacecraftId);
+  return q.execute();
+}

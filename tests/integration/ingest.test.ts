@@ -1,0 +1,202 @@
+import { spawn } from 'node:child_process';
+import { beforeAll, describe, expect, it } from 'vitest';
+import { sql } from 'kysely';
+import { BASE_URL, clientAs, db } from './support';
+import { attitudeRecord, concatBytes, loopRecord, loopStream } from './packets';
+import { encodePacket, encodeIdlePacket } from '../../src/lib/telemetry';
+import { createIngestToken } from '../../src/lib/server/ingest-tokens';
+import { findSpacecraftByKey } from '../../src/lib/server/spacecraft';
+
+let token = '';
+let spacecraftId = 0;
+// Each test works in its own hour of 2026-10 so that they do not see each other's packets.
+const hour = (h: number) => Date.UTC(2026, 9, 1 + Math.floor(h / 24), h % 24);
+
+async function post(body: Uint8Array, opts: { token?: string; station?: string; base?: string } = {}) {
+  const res = await fetch(`${opts.base ?? BASE_URL}/api/ingest${opts.station ? `?station=${opts.station}` : ''}`, {
+    method: 'POST',
+    headers: { authorization: `Bearer ${opts.token ?? token}`, 'content-type': 'application/octet-stream' },
+    body,
+  });
+  return { status: res.status, body: await res.json() };
+}
+
+async function loopRows(fromMs: number, toMs: number) {
+  const r = await sql<{ n: number; h: string }>`
+    SELECT count(*)::int AS n, md5(coalesce(string_agg(x::text, '|' ORDER BY time_tag, seq), '')) AS h
+    FROM (SELECT time_tag, seq, loop_id, measured_current_a, pressure_rise_pa, batch_id FROM loop_sample
+          WHERE spacecraft_id = ${spacecraftId} AND t >= ${new Date(fromMs)} AND t < ${new Date(toMs)}) x`.execute(db);
+  return r.rows[0]!;
+}
+
+beforeAll(async () => {
+  const sc = await findSpacecraftByKey(db, 'MR-3');
+  spacecraftId = sc!.id;
+  token = (await createIngestToken(db, spacecraftId, 'integration tests', null)).token;
+});
+
+describe('POST /api/ingest', () => {
+  it('stores a body and answers in the contract shape; a resend is all duplicates and changes no row', async () => {
+    const t0 = hour(0);
+    const body = loopStream(500, t0, 100);
+    const first = await post(body, { station: 'ribeira' });
+    expect(first.status).toBe(200);
+    expect(first.body).toEqual({ accepted: 500, duplicates: 0, rejected: [], gaps: [] });
+    const before = await loopRows(t0, t0 + 3_600_000);
+    expect(before.n).toBe(500);
+    const again = await post(body, { station: 'north-fell' });
+    expect(again.body).toEqual({ accepted: 0, duplicates: 500, rejected: [], gaps: [] });
+    expect(await loopRows(t0, t0 + 3_600_000)).toEqual(before);
+  });
+
+  it('stores the exact float32 values and time tags', async () => {
+    const t0 = hour(1) + 123.456;
+    const rec = loopRecord(7, t0, 2, 6.3);
+    expect((await post(encodePacket(rec))).body.accepted).toBe(1);
+    const row = await db
+      .selectFrom('loop_sample')
+      .selectAll()
+      .where('spacecraft_id', '=', spacecraftId)
+      .where('time_tag', '=', rec.coarse * 65536 + rec.fine)
+      .executeTakeFirstOrThrow();
+    expect(row.loop_id).toBe(2);
+    expect(row.measured_current_a).toBe(rec.measuredCurrent_a);
+    expect(row.pressure_rise_pa).toBe(rec.pressureRise_pa);
+    // JavaScript dates hold whole milliseconds; the exact time is the time tag.
+    expect(Math.abs(row.t.getTime() - t0)).toBeLessThan(1);
+  });
+
+  it('accepts requests out of time order and fills the gap the first one left', async () => {
+    const t0 = hour(2);
+    const late = loopStream(100, t0 + 10_000, 100); // seq 100..199
+    const early = loopStream(100, t0, 0); // seq 0..99
+    const tail = encodePacket(loopRecord(250, t0 + 30_000));
+    const a = await post(concatBytes([late, tail]));
+    expect(a.body.accepted).toBe(101);
+    expect(a.body.gaps).toEqual([{ apid: 32, from: 200, to: 249 }]);
+    const b = await post(early);
+    expect(b.body.accepted).toBe(100);
+    expect(b.body.gaps).toEqual([]);
+    expect((await loopRows(t0, t0 + 3_600_000)).n).toBe(201);
+    const open = await db.selectFrom('sequence_gap').select(['from_seq', 'to_seq', 'missing', 'filled_at']).where('spacecraft_id', '=', spacecraftId).where('after_time_tag', '>=', 0).execute();
+    expect(open.some((g) => g.from_seq === 200 && g.to_seq === 249 && g.missing === 50 && g.filled_at === null)).toBe(true);
+    // The missing run arrives in a playback dump: the gap is marked filled.
+    const fill = concatBytes(Array.from({ length: 50 }, (_, i) => encodePacket(loopRecord(200 + i, t0 + 20_000 + i * 100))));
+    expect((await post(fill)).body).toMatchObject({ accepted: 50, gaps: [] });
+    const after = await db.selectFrom('sequence_gap').select(['filled_at']).where('spacecraft_id', '=', spacecraftId).where('from_seq', '=', 200).where('to_seq', '=', 249).executeTakeFirstOrThrow();
+    expect(after.filled_at).not.toBeNull();
+  });
+
+  it('detects a gap across the 14-bit wrap of the sequence count', async () => {
+    const t0 = hour(3);
+    const body = concatBytes([16381, 16382, 16383, 2, 3].map((s, i) => encodePacket(loopRecord(s, t0 + i * 100))));
+    const r = await post(body);
+    expect(r.body.accepted).toBe(5);
+    expect(r.body.gaps).toEqual([{ apid: 32, from: 0, to: 1 }]);
+  });
+
+  it('stores the good packets of a body with bad ones and lists each bad one by offset and reason', async () => {
+    const t0 = hour(4);
+    const good1 = encodePacket(loopRecord(0, t0));
+    const corrupt = encodePacket(loopRecord(1, t0 + 100));
+    corrupt[20] ^= 0xff;
+    const unknownLoop = encodePacket(loopRecord(2, t0 + 200, 3)); // MR-3 has loops 0, 1, 2
+    const idle = encodeIdlePacket(0, 10);
+    const good2 = encodePacket(attitudeRecord(5, t0 + 300));
+    const body = concatBytes([good1, corrupt, unknownLoop, idle, good2]);
+    const r = await post(body);
+    expect(r.status).toBe(200);
+    expect(r.body.accepted).toBe(2);
+    expect(r.body.rejected).toEqual([
+      { offset: 48, reason: 'crc mismatch' },
+      { offset: 96, reason: 'unknown loop id' },
+    ]);
+    const q = await db.selectFrom('quarantine_packet').select(['offset_bytes', 'reason', 'raw']).where('spacecraft_id', '=', spacecraftId).orderBy('id', 'desc').limit(2).execute();
+    expect(q.map((x) => x.reason).sort()).toEqual(['crc mismatch', 'unknown loop id']);
+    expect(Buffer.compare(q.find((x) => x.reason === 'crc mismatch')!.raw, Buffer.from(corrupt))).toBe(0);
+    const batch = await db.selectFrom('ingest_batch').select(['idle', 'rejected', 'accepted']).orderBy('id', 'desc').limit(1).executeTakeFirstOrThrow();
+    expect(batch).toEqual({ idle: 1, rejected: 2, accepted: 2 });
+  });
+
+  it('answers 400 with a reason when nothing in the body is a packet', async () => {
+    const r = await post(new Uint8Array([1, 2, 3, 4, 5, 6, 7, 8, 9]));
+    expect(r.status).toBe(400);
+    expect(r.body.error.message).toMatch(/No packet/);
+    expect(r.body.rejected[0]).toEqual({ offset: 0, reason: 'length past end' });
+  });
+
+  it('refuses a missing, unknown or revoked token with 401', async () => {
+    const body = loopStream(1, hour(5));
+    expect((await post(body, { token: 'mrt_nope' })).status).toBe(401);
+    const admin = await clientAs('admin');
+    const created = await admin.post('/api/spacecraft/MR-3/tokens', { label: 'to revoke' });
+    expect(created.status).toBe(201);
+    const { id, token: fresh } = await created.json();
+    expect((await post(body, { token: fresh })).status).toBe(200);
+    expect((await admin.request('DELETE', `/api/spacecraft/MR-3/tokens/${id}`)).status).toBe(200);
+    expect((await post(body, { token: fresh })).status).toBe(401);
+    const listed = await (await admin.get('/api/spacecraft/MR-3/tokens')).json();
+    const row = listed.tokens.find((t: { id: number }) => t.id === id);
+    expect(row.revoked_at).not.toBeNull();
+    expect(row.last_used_at).not.toBeNull();
+    expect(JSON.stringify(listed)).not.toContain(fresh);
+  });
+
+  it('answers 413 beyond 8 MiB and stores nothing of it', async () => {
+    const t0 = hour(6);
+    const n = Math.ceil((8 * 1024 * 1024) / 48) + 10;
+    const r = await post(loopStream(n, t0, 0));
+    expect(r.status).toBe(413);
+    expect(r.body.error.code).toBe('PAYLOAD_TOO_LARGE');
+    expect((await loopRows(t0, t0 + 86_400_000)).n).toBe(0);
+  });
+
+  it('rejects an unknown station and a wrong content type, naming the field', async () => {
+    const body = loopStream(1, hour(7));
+    const r = await post(body, { station: 'atlantis' });
+    expect(r.status).toBe(400);
+    expect(r.body.error.fields.station[0]).toMatch(/atlantis/);
+    const res = await fetch(`${BASE_URL}/api/ingest`, { method: 'POST', headers: { authorization: `Bearer ${token}`, 'content-type': 'application/json' }, body: '{}' });
+    expect(res.status).toBe(400);
+    expect((await res.json()).error.fields['content-type']).toBeDefined();
+  });
+
+  it('a server killed mid-request stores nothing of it; the resend stores all', async () => {
+    const port = 4000 + Math.floor(Math.random() * 500);
+    const child = spawn(process.execPath, ['dist/server/entry.mjs'], { env: { ...process.env, PORT: String(port), HOST: '127.0.0.1' }, stdio: 'ignore' });
+    const base = `http://127.0.0.1:${port}`;
+    for (let i = 0; i < 100; i++) {
+      try {
+        await fetch(`${base}/sign-in`);
+        break;
+      } catch {
+        await new Promise((r) => setTimeout(r, 100));
+      }
+    }
+    const t0 = hour(8);
+    const n = 170_000; // just under 8 MiB
+    const body = loopStream(n, t0, 0);
+    const pending = post(body, { base }).catch(() => null);
+    // Wait until that server is inside its transaction, then kill it without warning.
+    let seen = false;
+    for (let i = 0; i < 2000 && !seen; i++) {
+      const r = await sql<{ n: number }>`SELECT count(*)::int AS n FROM pg_stat_activity WHERE state <> 'idle' AND (query LIKE 'COPY stage_%' OR query LIKE 'INSERT INTO loop_sample%')`.execute(db);
+      seen = r.rows[0]!.n > 0;
+      if (!seen) await new Promise((r) => setTimeout(r, 5));
+    }
+    child.kill('SIGKILL');
+    expect(seen).toBe(true);
+    expect(await pending).toBeNull();
+    // Give PostgreSQL a moment to notice the dropped connection and roll back.
+    for (let i = 0; i < 50; i++) {
+      const r = await sql<{ n: number }>`SELECT count(*)::int AS n FROM pg_stat_activity WHERE query LIKE 'INSERT INTO loop_sample%' AND state <> 'idle'`.execute(db);
+      if (r.rows[0]!.n === 0) break;
+      await new Promise((r) => setTimeout(r, 100));
+    }
+    expect((await loopRows(t0, t0 + 86_400_000)).n).toBe(0);
+    const resend = await post(body);
+    expect(resend.status).toBe(200);
+    expect(resend.body.accepted).toBe(n);
+    expect((await loopRows(t0, t0 + 86_400_000)).n).toBe(n);
+  });
+});
