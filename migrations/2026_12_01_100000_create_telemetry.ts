@@ -81,7 +81,6 @@ export async function up(db: Kysely<any>): Promise<void> {
     electrode_temp_c real NOT NULL,
     magnet_temp_c real NOT NULL
   ) PARTITION BY RANGE (t)`.execute(db);
-  await sql`CREATE INDEX loop_sample_loop_idx ON loop_sample (spacecraft_id, loop_id, time_tag)`.execute(db);
 
   // Physical value = raw × scale + offset; raw samples kept exactly as sent.
   await sql`CREATE TABLE burst_capture (${common('burst_capture')},

@@ -55,8 +55,10 @@ function aptInstall(pkgs, why) {
 function ensureDependencies() {
   const lock = path.join(root, 'package-lock.json');
   const stamp = path.join(root, 'node_modules', '.millrace-deps');
+  const pkg = JSON.parse(fs.readFileSync(path.join(root, 'package.json'), 'utf8'));
+  // Only what decides the installed tree counts, not scripts or descriptions.
   const want = createHash('sha256')
-    .update(fs.readFileSync(path.join(root, 'package.json')))
+    .update(JSON.stringify([pkg.dependencies, pkg.devDependencies, pkg.overrides, pkg.allowScripts]))
     .update(fs.existsSync(lock) ? fs.readFileSync(lock) : '')
     .digest('hex');
   if (fs.existsSync(stamp) && fs.readFileSync(stamp, 'utf8') === want) return;
@@ -468,6 +470,10 @@ try {
       await tool('src/jobs/run-jobs.ts');
       break;
     case 'bench':
+      if (!fs.existsSync(path.join(root, 'dist/server/entry.mjs'))) {
+        ensureDependencies();
+        build({});
+      }
       await tool('scripts/bench.ts');
       break;
     default:

@@ -16,7 +16,7 @@ async function post(body: Uint8Array, opts: { token?: string; station?: string; 
   const res = await fetch(`${opts.base ?? BASE_URL}/api/ingest${opts.station ? `?station=${opts.station}` : ''}`, {
     method: 'POST',
     headers: { authorization: `Bearer ${opts.token ?? token}`, 'content-type': 'application/octet-stream' },
-    body,
+    body: Buffer.from(body),
   });
   return { status: res.status, body: await res.json() };
 }
@@ -99,7 +99,7 @@ describe('POST /api/ingest', () => {
     const t0 = hour(4);
     const good1 = encodePacket(loopRecord(0, t0));
     const corrupt = encodePacket(loopRecord(1, t0 + 100));
-    corrupt[20] ^= 0xff;
+    corrupt[20] = corrupt[20]! ^ 0xff;
     const unknownLoop = encodePacket(loopRecord(2, t0 + 200, 3)); // MR-3 has loops 0, 1, 2
     const idle = encodeIdlePacket(0, 10);
     const good2 = encodePacket(attitudeRecord(5, t0 + 300));
@@ -180,7 +180,7 @@ describe('POST /api/ingest', () => {
     // Wait until that server is inside its transaction, then kill it without warning.
     let seen = false;
     for (let i = 0; i < 2000 && !seen; i++) {
-      const r = await sql<{ n: number }>`SELECT count(*)::int AS n FROM pg_stat_activity WHERE state <> 'idle' AND (query LIKE 'COPY stage_%' OR query LIKE 'INSERT INTO loop_sample%')`.execute(db);
+      const r = await sql<{ n: number }>`SELECT count(*)::int AS n FROM pg_stat_activity WHERE state <> 'idle' AND query LIKE 'COPY %loop_sample%'`.execute(db);
       seen = r.rows[0]!.n > 0;
       if (!seen) await new Promise((r) => setTimeout(r, 5));
     }
@@ -189,7 +189,7 @@ describe('POST /api/ingest', () => {
     expect(await pending).toBeNull();
     // Give PostgreSQL a moment to notice the dropped connection and roll back.
     for (let i = 0; i < 50; i++) {
-      const r = await sql<{ n: number }>`SELECT count(*)::int AS n FROM pg_stat_activity WHERE query LIKE 'INSERT INTO loop_sample%' AND state <> 'idle'`.execute(db);
+      const r = await sql<{ n: number }>`SELECT count(*)::int AS n FROM pg_stat_activity WHERE query LIKE 'COPY %loop_sample%' AND state <> 'idle'`.execute(db);
       if (r.rows[0]!.n === 0) break;
       await new Promise((r) => setTimeout(r, 100));
     }

@@ -4,7 +4,7 @@ import type pg from 'pg';
 import type { Kysely } from 'kysely';
 import type { Database } from './db/schema';
 import { HttpError } from './http';
-import { PacketBatch, storeBatch, type Gap, type StoreResult } from './telemetry-store';
+import { PacketBatch, reserveBatchId, storeBatch, type Gap, type StoreResult } from './telemetry-store';
 import { PacketStreamDecoder, decodeBuffer, type RejectReason } from '../telemetry';
 import { spacecraftSheetSchema } from '../spacecraft-sheet.schema';
 
@@ -92,7 +92,7 @@ export async function ingestBody(
   nowMs = Date.now(),
 ): Promise<{ report: IngestReport; unreadable: boolean }> {
   if (body.byteLength === 0) throw new HttpError('BAD_REQUEST', 'The body is empty: send a concatenation of space packets.');
-  const batch = new PacketBatch(0, nowMs);
+  const batch = new PacketBatch(meta.spacecraftId, await reserveBatchId(pool), nowMs);
   batch.bytes = body.byteLength;
   decodeBuffer(body, { loopIds: await loopIdsOf(db, meta.spacecraftId, nowMs) }, batch);
   const stored = await storeBatch(pool, batch, { ...meta, source: 'post' });
@@ -121,7 +121,7 @@ export async function ingestStream(
   const total: IngestReport = { accepted: 0, duplicates: 0, rejected: [], gaps: [] };
   const ctx = { loopIds: await loopIdsOf(db, meta.spacecraftId) };
   let idle = 0;
-  let batch = new PacketBatch();
+  let batch = new PacketBatch(meta.spacecraftId, await reserveBatchId(pool));
   // One visitor forwards into whichever batch is current.
   const decoder = new PacketStreamDecoder(ctx, {
     record: (rec) => batch.record(rec),
@@ -133,7 +133,7 @@ export async function ingestStream(
     if (batch.packets === 0) return;
     idle += batch.idleCount;
     mergeReports(total, await storeBatch(pool, batch, { ...meta, source: 'upload' }));
-    batch = new PacketBatch();
+    batch = new PacketBatch(meta.spacecraftId, await reserveBatchId(pool));
   };
   for await (const chunk of source) {
     decoder.push(chunk);

@@ -5,6 +5,8 @@ import type { Database, Role } from './db/schema';
 import { spacecraftSheetSchema } from '../spacecraft-sheet.schema';
 import { findSpacecraftByKey, insertSheet, insertSpacecraftWithSheet } from './spacecraft';
 import { findUserByEmail, insertUser } from './users';
+import { insertLimitSet } from './limit-sets';
+import { DEFAULT_RULES } from '../limits/defaults';
 
 /** Invented demo people: one account per role, plus a second engineer for reviews. */
 export const DEMO_USERS: { email: string; name: string; roles: Role[] }[] = [
@@ -74,6 +76,11 @@ export async function seedDemo(db: Kysely<Database>, password: string): Promise<
         .where('effective_from', '=', new Date(sheet.effectiveFrom))
         .executeTakeFirst();
       if (!has) await insertSheet(trx, existing.id, sheet, null);
+    }
+    // Each demo spacecraft starts with the default limits active (see src/lib/limits/defaults.ts).
+    for (const sc of await trx.selectFrom('spacecraft').select('id').execute()) {
+      const any = await trx.selectFrom('limit_set').select('id').where('spacecraft_id', '=', sc.id).executeTakeFirst();
+      if (!any) await insertLimitSet(trx, sc.id, { name: 'Default limits', notes: 'Seeded defaults; each limit says where it comes from.', rules: DEFAULT_RULES }, null, 'active');
     }
   });
   return { users, spacecraft, stations };

@@ -2,6 +2,7 @@ import type pg from 'pg';
 import copyStreams from 'pg-copy-streams';
 import { pipeline } from 'node:stream/promises';
 import { Readable } from 'node:stream';
+import { BinaryCopyWriter } from './copy-binary';
 import {
   APID,
   EPOCH_2000_UNIX_S,
@@ -19,53 +20,34 @@ export const PACKET_TABLES = {
   [APID.attitude]: {
     table: 'attitude_sample',
     columns: ['mode', 'rate_x_rad_s', 'rate_y_rad_s', 'rate_z_rad_s', 'q1', 'q2', 'q3', 'q4', 'mag_x_nt', 'mag_y_nt', 'mag_z_nt'],
-    types: ['smallint', 'real', 'real', 'real', 'real', 'real', 'real', 'real', 'real', 'real', 'real'],
   },
   [APID.loop]: {
     table: 'loop_sample',
     columns: ['loop_id', 'status', 'commanded_current_a', 'measured_current_a', 'electrode_voltage_v', 'flow_velocity_m_s', 'pressure_rise_pa', 'fluid_temp_c', 'electrode_temp_c', 'magnet_temp_c'],
-    types: ['smallint', 'smallint', 'real', 'real', 'real', 'real', 'real', 'real', 'real', 'real'],
   },
   [APID.burst]: {
     table: 'burst_capture',
     columns: ['loop_id', 'channel', 'sample_rate_hz', 'sample_count', 'scale', 'offset_value', 'raw_samples'],
-    types: ['smallint', 'smallint', 'integer', 'integer', 'real', 'real', 'smallint[]'],
   },
   [APID.event]: {
     table: 'event_report',
     columns: ['severity', 'code', 'loop_id', 'text'],
-    types: ['smallint', 'integer', 'smallint', 'text'],
   },
 } as const;
 
 type StoredApid = keyof typeof PACKET_TABLES;
 const STORED_APIDS = Object.keys(PACKET_TABLES).map(Number) as StoredApid[];
 
-/** COPY text-format escaping for a text value (NUL, which text cannot hold, becomes U+2400). */
-function copyText(s: string): string {
-  return s.replace(/[\\\t\n\r\0]/g, (c) => (c === '\\' ? '\\\\' : c === '\t' ? '\\t' : c === '\n' ? '\\n' : c === '\r' ? '\\r' : '\u2400'));
+const COMMON_COLUMNS = ['spacecraft_id', 't', 'time_tag', 'seq', 'batch_id'] as const;
+
+/** Every column of a packet table in COPY order. */
+export function copyColumns(apid: StoredApid): string[] {
+  return [...COMMON_COLUMNS, ...PACKET_TABLES[apid].columns];
 }
 
-function valueLine(rec: TelemetryRecord): { apid: StoredApid; line: string } {
-  switch (rec.kind) {
-    case 'attitude':
-      return {
-        apid: APID.attitude,
-        line: `${rec.mode}\t${rec.rate_rad_s[0]}\t${rec.rate_rad_s[1]}\t${rec.rate_rad_s[2]}\t${rec.quaternion[0]}\t${rec.quaternion[1]}\t${rec.quaternion[2]}\t${rec.quaternion[3]}\t${rec.mag_nT[0]}\t${rec.mag_nT[1]}\t${rec.mag_nT[2]}`,
-      };
-    case 'loop':
-      return {
-        apid: APID.loop,
-        line: `${rec.loopId}\t${rec.status}\t${rec.commandedCurrent_a}\t${rec.measuredCurrent_a}\t${rec.electrodeVoltage_v}\t${rec.flowVelocity_m_s}\t${rec.pressureRise_pa}\t${rec.fluidTemp_c}\t${rec.electrodeTemp_c}\t${rec.magnetTemp_c}`,
-      };
-    case 'burst':
-      return {
-        apid: APID.burst,
-        line: `${rec.loopId}\t${rec.channel}\t${rec.sampleRate_hz}\t${rec.raw.length}\t${rec.scale}\t${rec.offset}\t{${rec.raw.join(',')}}`,
-      };
-    case 'event':
-      return { apid: APID.event, line: `${rec.severity}\t${rec.code}\t${rec.loopId ?? '\\N'}\t${copyText(rec.text)}` };
-  }
+/** Sample time in microseconds since 2000-01-01 (the timestamptz binary form): exact integer arithmetic. */
+export function timeTagMicros(coarse: number, fine: number): number {
+  return coarse * 1_000_000 + Math.round(fine * 15.2587890625);
 }
 
 export interface Rejection {
@@ -75,11 +57,11 @@ export interface Rejection {
 }
 
 /**
- * Collects one batch of decoded packets as COPY text, ready for storeBatch. It is the decoder's
- * visitor, so a request body goes from bytes to COPY lines without other copies.
+ * Collects one batch of decoded packets as binary COPY data, ready for storeBatch. It is the
+ * decoder's visitor, so a request body goes from bytes to COPY tuples without other copies.
  */
 export class PacketBatch implements PacketVisitor {
-  readonly lines = new Map<StoredApid, string[]>(STORED_APIDS.map((a) => [a, []]));
+  readonly copy = new Map<StoredApid, BinaryCopyWriter>(STORED_APIDS.map((a) => [a, new BinaryCopyWriter(a === APID.loop || a === APID.attitude ? 1 << 20 : 1 << 14)]));
   readonly days = new Set<number>();
   readonly rejected: Rejection[] = [];
   private readonly span = new Map<StoredApid, [number, number]>();
@@ -91,15 +73,39 @@ export class PacketBatch implements PacketVisitor {
   bytes = 0;
 
   constructor(
-    private readonly offsetBase = 0,
+    readonly spacecraftId: number,
+    readonly batchId: number,
     private readonly nowMs = Date.now(),
   ) {}
 
   record(rec: TelemetryRecord): void {
-    const { apid, line } = valueLine(rec);
     const tt = rec.coarse * 65536 + rec.fine;
-    this.lines.get(apid)!.push(`${tt}\t${rec.seq}\t${line}\n`);
-    const ms = (EPOCH_2000_UNIX_S + tt / 65536) * 1000;
+    const us = timeTagMicros(rec.coarse, rec.fine);
+    const apid = APID_OF[rec.kind];
+    const w = this.copy.get(apid)!;
+    w.tuple(5 + PACKET_TABLES[apid].columns.length).int4(this.spacecraftId).timestampUs(us).int8(tt).int4(rec.seq).int4(this.batchId);
+    switch (rec.kind) {
+      case 'attitude':
+        w.int2(rec.mode).float4(rec.rate_rad_s[0]).float4(rec.rate_rad_s[1]).float4(rec.rate_rad_s[2]);
+        w.float4(rec.quaternion[0]).float4(rec.quaternion[1]).float4(rec.quaternion[2]).float4(rec.quaternion[3]);
+        w.float4(rec.mag_nT[0]).float4(rec.mag_nT[1]).float4(rec.mag_nT[2]);
+        break;
+      case 'loop':
+        w.int2(rec.loopId).int2(rec.status).float4(rec.commandedCurrent_a).float4(rec.measuredCurrent_a).float4(rec.electrodeVoltage_v);
+        w.float4(rec.flowVelocity_m_s).float4(rec.pressureRise_pa).float4(rec.fluidTemp_c).float4(rec.electrodeTemp_c).float4(rec.magnetTemp_c);
+        break;
+      case 'burst':
+        w.int2(rec.loopId).int2(rec.channel).int4(rec.sampleRate_hz).int4(rec.raw.length).float4(rec.scale).float4(rec.offset).int2Array(rec.raw);
+        break;
+      case 'event':
+        w.int2(rec.severity).int4(rec.code);
+        if (rec.loopId === null) w.null();
+        else w.int2(rec.loopId);
+        // PostgreSQL text cannot hold NUL: it is stored as U+2400 (SYMBOL FOR NULL).
+        w.text(rec.text.replaceAll('\0', '\u2400'));
+        break;
+    }
+    const ms = (EPOCH_2000_UNIX_S * 1e6 + us) / 1000;
     this.days.add(Math.floor(ms / DAY_MS));
     if (this.nowMs - ms < REALTIME_WINDOW_MS) this.realtime++;
     if (tt < this.minTimeTag) this.minTimeTag = tt;
@@ -115,7 +121,7 @@ export class PacketBatch implements PacketVisitor {
 
   reject(offset: number, reason: RejectReason, raw: Uint8Array): void {
     // The raw view may point into a buffer that is reused; keep a copy for forensics.
-    this.rejected.push({ offset: offset + this.offsetBase, reason, raw: Uint8Array.from(raw) });
+    this.rejected.push({ offset, reason, raw: Uint8Array.from(raw) });
   }
 
   idle(): void {
@@ -130,6 +136,19 @@ export class PacketBatch implements PacketVisitor {
   get packets(): number {
     return this.valid + this.rejected.length + this.idleCount;
   }
+}
+
+const APID_OF: Record<TelemetryRecord['kind'], StoredApid> = {
+  attitude: APID.attitude,
+  loop: APID.loop,
+  burst: APID.burst,
+  event: APID.event,
+};
+
+/** Reserve the id of the next ingest batch (packets carry it, so it is needed before decoding). */
+export async function reserveBatchId(pool: pg.Pool): Promise<number> {
+  const r = await pool.query<{ id: number }>("SELECT nextval('ingest_batch_id_seq')::int AS id");
+  return r.rows[0]!.id;
 }
 
 export interface Gap {
@@ -199,24 +218,16 @@ const stagingReady = new WeakSet<pg.PoolClient>();
 async function ensureStaging(client: pg.PoolClient): Promise<void> {
   if (stagingReady.has(client)) return;
   for (const apid of STORED_APIDS) {
-    const spec = PACKET_TABLES[apid];
-    const cols = spec.columns.map((c, i) => `${c} ${spec.types[i]}`).join(', ');
-    await client.query(`CREATE TEMP TABLE IF NOT EXISTS stage_${spec.table} (time_tag bigint, seq integer, ${cols}) ON COMMIT DELETE ROWS`);
+    const t = PACKET_TABLES[apid].table;
+    await client.query(`CREATE TEMP TABLE IF NOT EXISTS stage_${t} (LIKE ${t}) ON COMMIT DELETE ROWS`);
   }
   stagingReady.add(client);
 }
 
-async function copyInto(client: pg.PoolClient, table: string, columns: readonly string[], lines: string[]): Promise<void> {
-  const stream = client.query(copyStreams.from(`COPY ${table} (${columns.join(', ')}) FROM STDIN`));
-  // Feed the lines in slices so a large batch never becomes one giant string.
-  async function* chunks() {
-    for (let i = 0; i < lines.length; i += 4096) yield lines.slice(i, i + 4096).join('');
-  }
-  await pipeline(Readable.from(chunks()), stream);
+async function copyInto(client: pg.PoolClient, table: string, columns: readonly string[], data: Uint8Array): Promise<void> {
+  const stream = client.query(copyStreams.from(`COPY ${table} (${columns.join(', ')}) FROM STDIN (FORMAT binary)`));
+  await pipeline(Readable.from([Buffer.from(data.buffer, data.byteOffset, data.byteLength)]), stream);
 }
-
-/** SQL that turns a time tag into the sample time (2000-01-01 epoch, 2^-16 s units). */
-export const TIME_TAG_TO_T = `to_timestamp(${EPOCH_2000_UNIX_S} + time_tag / 65536.0)`;
 
 /**
  * Two stored packets of one APID are compared for a sequence gap only when they are at most this
@@ -262,8 +273,8 @@ export async function storeBatch(
     await ensureStaging(client);
     await client.query('BEGIN');
     const b = await client.query<{ id: number }>(
-      `INSERT INTO ingest_batch (spacecraft_id, station_id, upload_id, source, bytes, accepted, duplicates, rejected, idle, realtime, playback, first_time_tag, last_time_tag)
-       VALUES ($1, $2, $3, $4, $5, 0, 0, $6, $7, $8, $9, $10, $11) RETURNING id`,
+      `INSERT INTO ingest_batch (id, spacecraft_id, station_id, upload_id, source, bytes, accepted, duplicates, rejected, idle, realtime, playback, first_time_tag, last_time_tag)
+       VALUES ($12, $1, $2, $3, $4, $5, 0, 0, $6, $7, $8, $9, $10, $11) RETURNING id`,
       [
         meta.spacecraftId,
         meta.stationId,
@@ -276,30 +287,41 @@ export async function storeBatch(
         batch.valid - batch.realtime,
         Number.isFinite(batch.minTimeTag) ? batch.minTimeTag : null,
         Number.isFinite(batch.maxTimeTag) ? batch.maxTimeTag : null,
+        batch.batchId,
       ],
     );
     const batchId = b.rows[0]!.id;
+    const todo = STORED_APIDS.filter((apid) => batch.copy.get(apid)!.rows > 0);
+    const data = new Map(todo.map((apid) => [apid, batch.copy.get(apid)!.finish()]));
+    // Fast path: COPY straight into the tables. A duplicate (retry, overlapping dump) makes the
+    // COPY fail on the primary key; then the batch goes through staging with ON CONFLICT DO NOTHING.
     let accepted = 0;
+    await client.query('SAVEPOINT direct_copy');
+    try {
+      for (const apid of todo) await copyInto(client, PACKET_TABLES[apid].table, copyColumns(apid), data.get(apid)!);
+      await client.query('RELEASE SAVEPOINT direct_copy');
+      accepted = batch.valid;
+    } catch (err) {
+      if ((err as { code?: string }).code !== '23505') throw err;
+      await client.query('ROLLBACK TO SAVEPOINT direct_copy');
+      await ensureStaging(client);
+      for (const apid of todo) {
+        const t = PACKET_TABLES[apid].table;
+        await copyInto(client, `stage_${t}`, copyColumns(apid), data.get(apid)!);
+        const ins = await client.query(`INSERT INTO ${t} SELECT * FROM stage_${t} ON CONFLICT DO NOTHING`);
+        accepted += ins.rowCount ?? 0;
+      }
+    }
     const gaps: Gap[] = [];
-    for (const apid of STORED_APIDS) {
-      const lines = batch.lines.get(apid)!;
-      if (!lines.length) continue;
+    for (const apid of todo) {
       const spec = PACKET_TABLES[apid];
-      await copyInto(client, `stage_${spec.table}`, ['time_tag', 'seq', ...spec.columns], lines);
-      const ins = await client.query(
-        `INSERT INTO ${spec.table} (spacecraft_id, t, time_tag, seq, batch_id, ${spec.columns.join(', ')})
-         SELECT $1, ${TIME_TAG_TO_T}, time_tag, seq, $2, ${spec.columns.join(', ')} FROM stage_${spec.table}
-         ON CONFLICT DO NOTHING`,
-        [meta.spacecraftId, batchId],
-      );
-      accepted += ins.rowCount ?? 0;
       // Gaps around and inside this batch's span, from what is stored now.
       const [minTt, maxTt] = batch.spanOf(apid)!;
       const { lo, hi, gaps: found } = await findGaps(client, meta.spacecraftId, spec.table, minTt, maxTt);
       for (const g of found) {
         const from = (g.pseq + 1) % 16384;
         const to = (g.seq + 16383) % 16384;
-        const missing = (g.seq - g.pseq + 16384) % 16384 - 1;
+        const missing = ((g.seq - g.pseq + 16384) % 16384) - 1;
         gaps.push({ apid, from, to });
         await client.query(
           `INSERT INTO sequence_gap (spacecraft_id, apid, from_seq, to_seq, missing, after_time_tag, before_time_tag)

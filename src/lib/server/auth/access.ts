@@ -24,6 +24,21 @@ export const routeRules: Record<string, Partial<Record<Method, Access>>> = {
   '/api/spacecraft/[key]/sheets': { GET: 'signed-in', POST: ['engineer', 'admin'] },
   '/api/spacecraft/[key]/tokens': { GET: ['admin'], POST: ['admin'] },
   '/api/spacecraft/[key]/tokens/[id]': { DELETE: ['admin'] },
+  '/uploads': { GET: 'signed-in' },
+  '/spacecraft/[key]': { GET: 'signed-in' },
+  '/spacecraft/[key]/sheets': { GET: 'signed-in' },
+  '/admin/tokens': { GET: ['admin'] },
+  '/api/spacecraft/[key]/link': { GET: 'signed-in' },
+  // Mail: Mailbox and Outbox for admins; everyone signed in sees who is on call, operators and admins edit it.
+  '/mailbox': { GET: ['admin'] },
+  '/api/mailbox': { GET: ['admin'] },
+  '/api/mailbox/[id]': { GET: ['admin'] },
+  '/admin/outbox': { GET: ['admin'] },
+  '/api/outbox': { GET: ['admin'] },
+  '/roster': { GET: 'signed-in' },
+  '/roster/[key]': { GET: 'signed-in' },
+  '/api/roster/[key]': { GET: 'signed-in', POST: ['operator', 'admin'] },
+  '/api/roster/[key]/[id]': { DELETE: ['operator', 'admin'] },
 };
 
 /** The access rule for a route pattern and method, or null when there is none (deny). */

@@ -70,7 +70,7 @@ export interface AuditLogTable {
   detail: ColumnType<unknown, string | undefined, never>;
 }
 
-export interface Database extends TelemetryTables {
+export interface Database extends TelemetryTables, AnalysisTables, MailTables {
   app_user: AppUserTable;
   user_role: UserRoleTable;
   user_session: UserSessionTable;
@@ -216,4 +216,203 @@ export interface TelemetryTables {
   event_report: EventReportTable;
   quarantine_packet: QuarantinePacketTable;
   sequence_gap: SequenceGapTable;
+}
+
+type N = number | null;
+
+export interface LoopWindowTable {
+  spacecraft_id: number;
+  loop_id: number;
+  window_start: Timestamp;
+  window_s: number;
+  sheet_id: number | null;
+  samples: number;
+  current_mean_a: N; current_std_a: N; commanded_mean_a: N; flow_mean_m_s: N;
+  kt_nm_per_a: N; kt_stderr_nm_per_a: N;
+  effectiveness: N; effectiveness_stderr: N; compensated_effectiveness: N;
+  pressure_constant_pa_per_a: N; pressure_constant_stderr_pa_per_a: N; pressure_effectiveness: N; pressure_mean_pa: N;
+  resistance_ohm: N; joule_power_w: N; electrical_power_w: N;
+  fluid_temp_mean_c: N; electrode_temp_mean_c: N; magnet_temp_mean_c: N;
+  rate_of_rise_k_s: N; thermal_residual_k: N; time_to_temp_limit_s: N;
+  momentum_mean_nms: N; momentum_abs_mean_nms: N; momentum_max_abs_nms: N;
+  margin_in_use_pct: N; time_to_saturation_s: N;
+  fluid_torque_mean_nm: N; fluid_torque_abs_mean_nm: N;
+  torque_per_watt_nm_per_w: N; momentum_per_watt_nms_per_w: N;
+  drift_ewma: N; drift_ewma_ucl: N; drift_ewma_lcl: N; drift_cusum_hi: N; drift_cusum_lo: N;
+  analysed_at: CreatedAt;
+}
+
+export interface BodyWindowTable {
+  spacecraft_id: number;
+  window_start: Timestamp;
+  window_s: number;
+  samples: number;
+  rate_mean_x_rad_s: N; rate_mean_y_rad_s: N; rate_mean_z_rad_s: N;
+  body_momentum_x_nms: N; body_momentum_y_nms: N; body_momentum_z_nms: N;
+  loop_momentum_x_nms: N; loop_momentum_y_nms: N; loop_momentum_z_nms: N;
+  system_momentum_nms: N;
+  ledger_x_nm: N; ledger_y_nm: N; ledger_z_nm: N;
+  ledger_stderr_x_nm: N; ledger_stderr_y_nm: N; ledger_stderr_z_nm: N;
+  ledger_residual_nm: N;
+  mag_field_nt: N;
+  analysed_at: CreatedAt;
+}
+
+export interface BurstAnalysisTable {
+  spacecraft_id: number;
+  loop_id: number;
+  channel: number;
+  t: Timestamp;
+  sample_rate_hz: number;
+  samples: number;
+  mean: number;
+  rms: number;
+  top_peak_hz: N;
+  top_peak_amplitude: N;
+  band_power: N;
+  peaks: ColumnType<unknown, string, string>;
+  frequencies_hz: number[];
+  psd: number[];
+  analysed_at: CreatedAt;
+}
+
+export interface AnalysisCursorTable {
+  spacecraft_id: number;
+  last_batch_id: number;
+  updated_at: ColumnType<Date, Date | string | undefined, Date | string>;
+}
+
+export interface JobRunTable {
+  id: Generated<number>;
+  job: string;
+  spacecraft_id: number | null;
+  started_at: Timestamp;
+  finished_at: Timestamp | null;
+  windows: Generated<number>;
+  rows_written: Generated<number>;
+  detail: ColumnType<unknown, string | undefined, string>;
+  error: string | null;
+}
+
+export type LimitSetStatus = 'draft' | 'in review' | 'active' | 'retired';
+
+export interface LimitSetTable {
+  id: Generated<number>;
+  spacecraft_id: number;
+  version: number;
+  name: string;
+  status: LimitSetStatus;
+  notes: Generated<string>;
+  created_by: string | null;
+  created_at: CreatedAt;
+  activated_at: Timestamp | null;
+  retired_at: Timestamp | null;
+}
+
+export interface LimitRuleTable {
+  id: Generated<number>;
+  limit_set_id: number;
+  quantity: string;
+  loop_id: number | null;
+  caution_high: N; warning_high: N; caution_low: N; warning_low: N; clear_high: N; clear_low: N;
+  persistence: number;
+  rationale: Generated<string>;
+}
+
+export type TripState = 'open' | 'acknowledged' | 'resolved';
+
+export interface TripTable {
+  id: Generated<number>;
+  spacecraft_id: number;
+  loop_id: number | null;
+  kind: string;
+  quantity: string;
+  level: 'caution' | 'warning';
+  side: 'high' | 'low';
+  state: Generated<TripState>;
+  limit_set_id: number | null;
+  limit_set_version: number;
+  rule_id: number | null;
+  onset_at: Timestamp;
+  raised_at: Timestamp;
+  escalated_at: Timestamp | null;
+  cleared_at: Timestamp | null;
+  value: number;
+  peak_value: number;
+  limit_value: number;
+  last_value: number;
+  last_at: Timestamp;
+  evidence: ColumnType<unknown, string, string>;
+  acknowledged_by: string | null;
+  acknowledged_at: Timestamp | null;
+  acknowledge_note: string | null;
+  resolved_by: string | null;
+  resolved_at: Timestamp | null;
+  resolution: string | null;
+}
+
+export interface RuleCursorTable {
+  rule_id: number;
+  loop_id: number;
+  evaluated_through: Timestamp;
+  state: ColumnType<unknown, string, string>;
+}
+
+export interface AnalysisTables {
+  loop_window: LoopWindowTable;
+  body_window: BodyWindowTable;
+  burst_analysis: BurstAnalysisTable;
+  analysis_cursor: AnalysisCursorTable;
+  job_run: JobRunTable;
+  limit_set: LimitSetTable;
+  limit_rule: LimitRuleTable;
+  trip: TripTable;
+  rule_cursor: RuleCursorTable;
+}
+
+export interface OutboxTable {
+  id: Generated<number>;
+  message_key: string;
+  kind: string;
+  to_addresses: string[];
+  subject: string;
+  text_body: string;
+  html_body: string | null;
+  trip_id: number | null;
+  state: Generated<'queued' | 'sent' | 'failed'>;
+  attempts: Generated<number>;
+  next_attempt_at: ColumnType<Date, Date | string | undefined, Date | string>;
+  last_error: string | null;
+  created_at: CreatedAt;
+  sent_at: Timestamp | null;
+}
+
+export interface OnCallShiftTable {
+  id: Generated<number>;
+  spacecraft_id: number;
+  user_id: string;
+  starts_at: Timestamp;
+  ends_at: Timestamp;
+  created_by: string | null;
+  created_at: CreatedAt;
+}
+
+export interface MailDigestItemTable {
+  id: Generated<number>;
+  spacecraft_id: number;
+  trip_id: number;
+  period_start: Timestamp;
+  to_addresses: string[];
+  /** The trip's mail facts as JSON (times as ISO strings). */
+  facts: ColumnType<unknown, string, string>;
+  cleared_at: Timestamp | null;
+  digested_at: Timestamp | null;
+  outbox_id: number | null;
+  created_at: CreatedAt;
+}
+
+export interface MailTables {
+  outbox: OutboxTable;
+  on_call_shift: OnCallShiftTable;
+  mail_digest_item: MailDigestItemTable;
 }

@@ -1,0 +1,36 @@
+// The demo fleet's feed, as `npm start` runs it: fresh ingest tokens for the demo spacecraft (the
+// previous demo-feed tokens are revoked), a feed configuration under .data/, then the feed itself
+// in real time. `npm run feed -- --playback --hours 24` passes its arguments on to the feed.
+import fs from 'node:fs';
+import path from 'node:path';
+import { spawn } from 'node:child_process';
+import { db } from '../src/lib/server/db';
+import { createIngestToken } from '../src/lib/server/ingest-tokens';
+import { findSheetInForce } from '../src/lib/server/spacecraft';
+import { config } from '../src/lib/server/config';
+
+const SCENARIOS: Record<string, string> = { 'MR-1': 'ingest/scenarios/demo.json', 'MR-2': 'ingest/scenarios/healthy.json', 'MR-3': 'ingest/scenarios/healthy.json' };
+const LABEL = 'demo feed';
+
+const fleet = await db.selectFrom('spacecraft').select(['id', 'key']).orderBy('key').execute();
+const spacecraft = [];
+const startedAtMs = Math.floor(Date.now() / 1000) * 1000;
+for (const sc of fleet) {
+  const sheet = await findSheetInForce(db, sc.id, new Date());
+  if (!sheet) continue;
+  await db.updateTable('ingest_token').set({ revoked_at: new Date() }).where('spacecraft_id', '=', sc.id).where('label', '=', LABEL).where('revoked_at', 'is', null).execute();
+  const { token } = await createIngestToken(db, sc.id, LABEL, null);
+  spacecraft.push({ key: sc.key, token, sheet: sheet.sheet, scenario: path.resolve(SCENARIOS[sc.key] ?? 'ingest/scenarios/healthy.json'), startedAtMs });
+}
+const stations = (await db.selectFrom('ground_station').select('key').orderBy('key').execute()).map((s) => s.key);
+await db.destroy();
+if (!spacecraft.length) {
+  console.error('[feed] no spacecraft with a sheet to simulate');
+  process.exit(1);
+}
+const file = path.resolve('.data/demo-feed.json');
+fs.mkdirSync(path.dirname(file), { recursive: true });
+fs.writeFileSync(file, JSON.stringify({ baseUrl: config().PUBLIC_URL, spacecraft, ...(stations.length ? { stations } : {}) }, null, 2), { mode: 0o600 });
+const child = spawn(process.execPath, ['--import', 'tsx', 'ingest/feed.ts', '--config', file, ...process.argv.slice(2)], { stdio: 'inherit' });
+for (const sig of ['SIGINT', 'SIGTERM'] as const) process.on(sig, () => child.kill(sig));
+child.on('exit', (code) => process.exit(code ?? 0));

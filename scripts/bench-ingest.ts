@@ -1,0 +1,148 @@
+// Ingest benchmark: 24 h of one three-loop spacecraft posted through HTTP in 8 MiB requests,
+// against COPY of the same decoded rows straight into the same tables.
+// Run with `npm run bench:ingest` (the launcher provides PostgreSQL and DATABASE_URL).
+import fs from 'node:fs';
+import { spawn } from 'node:child_process';
+import { pipeline } from 'node:stream/promises';
+import { Readable } from 'node:stream';
+import { sql } from 'kysely';
+import copyStreams from 'pg-copy-streams';
+import { createDb, createPool } from '../src/lib/server/db';
+import { migrateToLatest } from '../src/lib/server/db/migrate';
+import { seedDemo, truncateAll } from '../src/lib/server/seed';
+import { createIngestToken } from '../src/lib/server/ingest-tokens';
+import { PacketBatch, PACKET_TABLES, copyColumns, ensureDayPartitions } from '../src/lib/server/telemetry-store';
+import { decodeBuffer } from '../src/lib/telemetry';
+import { generatePackets } from '../ingest/generator';
+import { parseScenario } from '../ingest/scenario.schema';
+import { spacecraftSheetSchema } from '../src/lib/spacecraft-sheet.schema';
+
+const HOURS = Number(process.env.BENCH_HOURS ?? 24);
+const CONCURRENCY = Number(process.env.BENCH_CONCURRENCY ?? 2);
+const PORT = 4477;
+const REQUEST_BYTES = 8 * 1024 * 1024;
+
+const baseUrl = process.env.DATABASE_URL!;
+const benchUrl = new URL(baseUrl);
+benchUrl.pathname = '/millrace_bench';
+{
+  const admin = createPool(baseUrl, 1);
+  await admin.query('DROP DATABASE IF EXISTS millrace_bench WITH (FORCE)');
+  await admin.query('CREATE DATABASE millrace_bench');
+  await admin.end();
+}
+const pool = createPool(benchUrl.toString(), 4);
+const db = createDb(pool);
+await migrateToLatest(db);
+await truncateAll(db);
+await seedDemo(db, 'bench-only-password');
+const sc = await db.selectFrom('spacecraft').select(['id', 'key']).where('key', '=', 'MR-3').executeTakeFirstOrThrow();
+const { token } = await createIngestToken(db, sc.id, 'bench', null);
+
+const sheet = spacecraftSheetSchema.parse(JSON.parse(fs.readFileSync('ingest/fleet/MR-3.json', 'utf8')));
+const scenario = parseScenario(JSON.parse(fs.readFileSync('ingest/scenarios/healthy.json', 'utf8')));
+const startMs = Date.UTC(2026, 10, 2, 0);
+let t = performance.now();
+const chunks: Uint8Array[] = [];
+let totalBytes = 0;
+for (const c of generatePackets({ sheet, scenario, startMs, durationMs: HOURS * 3600_000, chunkBytes: REQUEST_BYTES })) {
+  chunks.push(c.slice());
+  totalBytes += c.byteLength;
+}
+const genS = (performance.now() - t) / 1000;
+console.log(`[bench:ingest] generated ${HOURS} h of ${sc.key}: ${(totalBytes / 1e6).toFixed(1)} MB in ${chunks.length} requests (${genS.toFixed(1)} s, not counted)`);
+
+if (!fs.existsSync('dist/server/entry.mjs')) throw new Error('build the app first (npm run build)');
+const server = spawn(process.execPath, ['dist/server/entry.mjs'], {
+  env: { ...process.env, DATABASE_URL: benchUrl.toString(), HOST: '127.0.0.1', PORT: String(PORT) },
+  stdio: ['ignore', 'ignore', 'inherit'],
+});
+for (let i = 0; i < 200; i++) {
+  try {
+    await fetch(`http://127.0.0.1:${PORT}/sign-in`);
+    break;
+  } catch {
+    await new Promise((r) => setTimeout(r, 100));
+  }
+}
+let peakRss = 0;
+const rssOf = () => {
+  try {
+    const status = fs.readFileSync(`/proc/${server.pid}/status`, 'utf8');
+    return Number(/VmRSS:\s+(\d+)/.exec(status)?.[1] ?? 0) * 1024;
+  } catch {
+    return 0;
+  }
+};
+const sampler = setInterval(() => (peakRss = Math.max(peakRss, rssOf())), 50);
+
+let accepted = 0;
+let next = 0;
+t = performance.now();
+async function worker() {
+  while (next < chunks.length) {
+    const body = chunks[next++]!;
+    const res = await fetch(`http://127.0.0.1:${PORT}/api/ingest`, {
+      method: 'POST',
+      headers: { authorization: `Bearer ${token}`, 'content-type': 'application/octet-stream' },
+      body: Buffer.from(body.buffer, body.byteOffset, body.byteLength),
+    });
+    const r = (await res.json()) as { accepted: number };
+    if (res.status !== 200) throw new Error(`ingest answered ${res.status}: ${JSON.stringify(r)}`);
+    accepted += r.accepted;
+  }
+}
+await Promise.all(Array.from({ length: CONCURRENCY }, worker));
+const httpS = (performance.now() - t) / 1000;
+clearInterval(sampler);
+peakRss = Math.max(peakRss, rssOf());
+server.kill('SIGTERM');
+
+// The same rows, decoded beforehand, COPY'd straight into the same (emptied) tables.
+const loopIds = new Set(sheet.loops.map((l) => l.id));
+const batches = chunks.map((c, i) => {
+  const b = new PacketBatch(sc.id, 1_000_000 + i);
+  decodeBuffer(c, { loopIds }, b);
+  return b;
+});
+await sql`TRUNCATE attitude_sample, loop_sample, burst_capture, event_report`.execute(db);
+await ensureDayPartitions(pool, new Set(batches.flatMap((b) => [...b.days])));
+const client = await pool.connect();
+let copied = 0;
+t = performance.now();
+for (const b of batches) {
+  for (const [apid, w] of b.copy) {
+    if (!w.rows) continue;
+    const data = w.finish();
+    const stream = client.query(copyStreams.from(`COPY ${PACKET_TABLES[apid].table} (${copyColumns(apid).join(', ')}) FROM STDIN (FORMAT binary)`));
+    await pipeline(Readable.from([Buffer.from(data.buffer, data.byteOffset, data.byteLength)]), stream);
+    copied += w.rows;
+  }
+}
+const copyS = (performance.now() - t) / 1000;
+client.release();
+
+const result = {
+  hours: HOURS,
+  packets: accepted,
+  megabytes: totalBytes / 1e6,
+  http_s: httpS,
+  packets_per_s: accepted / httpS,
+  mb_per_s: totalBytes / 1e6 / httpS,
+  server_peak_rss_mb: peakRss / 1048576,
+  copy_s: copyS,
+  copy_rows: copied,
+  ratio_http_to_copy: copyS / httpS,
+  concurrency: CONCURRENCY,
+};
+fs.mkdirSync('bench-results', { recursive: true });
+fs.writeFileSync('bench-results/ingest.json', JSON.stringify(result, null, 2));
+console.log(
+  `[bench:ingest] ${accepted} packets, ${result.megabytes.toFixed(1)} MB through HTTP in ${httpS.toFixed(1)} s ` +
+    `(${Math.round(result.packets_per_s)} packets/s, ${result.mb_per_s.toFixed(1)} MB/s; targets ≤ 30 s); server peak RSS ${result.server_peak_rss_mb.toFixed(0)} MB (target ≤ 300); ` +
+    `plain COPY of the same rows ${copyS.toFixed(1)} s → ratio ${result.ratio_http_to_copy.toFixed(2)} (target ≥ 0.6)`,
+);
+await db.destroy();
+const admin = createPool(baseUrl, 1);
+await admin.query('DROP DATABASE IF EXISTS millrace_bench WITH (FORCE)');
+await admin.end();

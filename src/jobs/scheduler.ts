@@ -1,0 +1,39 @@
+// The scheduler process of `npm start`: every minute, analyse what arrived and evaluate limits;
+// every day, create the telemetry partitions ahead. Several instances may run: the advisory lock
+// per spacecraft and job makes sure each piece of work is done once.
+import cron from 'node-cron';
+import { db, pool } from '../lib/server/db';
+import { runDueJobs } from '../lib/server/analysis-job';
+import { ensurePartitionsAhead } from '../lib/server/telemetry-store';
+import { tripMailHandler } from '../lib/server/trip-mail';
+
+let running = false;
+async function tick(): Promise<void> {
+  if (running) return; // the previous minute's run is still going
+  running = true;
+  try {
+    const summaries = await runDueJobs(db, pool, { onTripChange: tripMailHandler });
+    const busy = summaries.filter((s) => s.status !== 'done');
+    const trips = summaries.reduce((n, s) => n + s.trips.opened + s.trips.escalated + s.trips.cleared, 0);
+    console.log(`[scheduler] analysed ${summaries.reduce((n, s) => n + s.windows, 0)} windows for ${summaries.length} spacecraft; ${trips} trip changes${busy.length ? `; ${busy.map((s) => `${s.spacecraftKey} ${s.status}`).join(', ')}` : ''}`);
+  } catch (err) {
+    console.error('[scheduler] run failed:', err);
+  } finally {
+    running = false;
+  }
+}
+
+await ensurePartitionsAhead(pool, new Date());
+const every = cron.schedule('* * * * *', tick, { noOverlap: true });
+const daily = cron.schedule('17 0 * * *', () => ensurePartitionsAhead(pool, new Date()).catch((e) => console.error('[scheduler] partitions:', e)));
+console.log('[scheduler] running: analysis every minute');
+void tick();
+
+async function stop(): Promise<void> {
+  await every.stop();
+  await daily.stop();
+  await db.destroy();
+  process.exit(0);
+}
+process.on('SIGINT', stop);
+process.on('SIGTERM', stop);

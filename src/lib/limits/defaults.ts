@@ -1,0 +1,48 @@
+import type { LimitRuleInput } from './limit-set.schema';
+
+/**
+ * The demo fleet's default limits, each with where it comes from. They are starting points for
+ * the engineer on the Limit bench, not flight rules.
+ */
+export const DEFAULT_RULES: LimitRuleInput[] = [
+  {
+    quantity: 'effectiveness', loopId: null, cautionHigh: null, warningHigh: null, cautionLow: 0.55, warningLow: 0.45, clearHigh: null, clearLow: 0.6, persistence: 3,
+    rationale: 'Invented for the demo: healthy conduction-pumped loops reach about 0.6–0.8 of the ideal I·B·a·R; three consecutive 60 s windows below 0.55 is a loss worth a look.',
+  },
+  {
+    quantity: 'drift_cusum_lo', loopId: null, cautionHigh: 4.2, warningHigh: 8, cautionLow: null, warningLow: null, clearHigh: 1, clearLow: null, persistence: 1,
+    rationale: 'Common practice: tabular CUSUM with k = 0.5σ and decision interval h ≈ 4–5σ (NIST/SEMATECH e-Handbook §6.3.2.3 uses h = 4.1959 in its example).',
+  },
+  {
+    quantity: 'electrode_temp_mean_c', loopId: null, cautionHigh: 55, warningHigh: 70, cautionLow: null, warningLow: null, clearHigh: 50, clearLow: null, persistence: 2,
+    rationale: 'Invented for the demo: a working electrode limit well below the alloy and seal limits of a desk-built loop.',
+  },
+  {
+    quantity: 'rate_of_rise_k_s', loopId: null, cautionHigh: 0.02, warningHigh: 0.05, cautionLow: null, warningLow: null, clearHigh: 0.01, clearLow: null, persistence: 3,
+    rationale: 'Physics: at the demo loops’ Joule power and heat capacity a healthy electrode rises far slower than 0.02 K/s once settled.',
+  },
+  {
+    quantity: 'pulsation_peak', loopId: null, cautionHigh: 40, warningHigh: 120, cautionLow: null, warningLow: null, clearHigh: 25, clearLow: null, persistence: 2,
+    rationale: 'Invented for the demo: a discrete pressure line of tens of pascals over the pump rise is far above the flowmeter noise floor.',
+  },
+  {
+    quantity: 'margin_in_use_pct', loopId: null, cautionHigh: 80, warningHigh: 95, cautionLow: null, warningLow: null, clearHigh: 70, clearLow: null, persistence: 3,
+    rationale: 'Common practice for momentum actuators: plan an unload before the store passes about 80 % of its capacity.',
+  },
+  {
+    quantity: 'ledger_residual_nm', loopId: null, cautionHigh: 2e-5, warningHigh: 1e-4, cautionLow: null, warningLow: null, clearHigh: 1e-5, clearLow: null, persistence: 5,
+    rationale: 'Physics: gravity-gradient and residual-dipole torques on a ~15 kg spacecraft are of order 1e-7–1e-6 N·m; a persistent residual far above that means the ledger is missing something.',
+  },
+  {
+    quantity: 'measured_current_a', loopId: null, cautionHigh: 28, warningHigh: 32, cautionLow: -28, warningLow: -32, clearHigh: 26, clearLow: -26, persistence: 5,
+    rationale: 'Physics of the demo sheets: rated currents are 22–30 A; a sustained current beyond that is outside the pump’s rating.',
+  },
+  {
+    quantity: 'data_age_s', loopId: null, cautionHigh: 30, warningHigh: 120, cautionLow: null, warningLow: null, clearHigh: 10, clearLow: null, persistence: 1,
+    rationale: 'Common practice: real-time housekeeping at 10 Hz older than half a minute during a pass means the link is down.',
+  },
+  {
+    quantity: 'missing_packets', loopId: null, cautionHigh: 20, warningHigh: 200, cautionLow: null, warningLow: null, clearHigh: 1, clearLow: null, persistence: 1,
+    rationale: 'Invented for the demo: a few dropped packets a minute are tolerable; hundreds mean a bad link or a dump problem.',
+  },
+];
