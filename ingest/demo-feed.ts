@@ -12,9 +12,20 @@ import { config } from '../src/lib/server/config';
 const SCENARIOS: Record<string, string> = { 'MR-1': 'ingest/scenarios/demo.json', 'MR-2': 'ingest/scenarios/healthy.json', 'MR-3': 'ingest/scenarios/healthy.json' };
 const LABEL = 'demo feed';
 
+const file = path.resolve('.data/demo-feed.json');
+// A restart within a few hours resumes the same simulated timeline (the sim regenerates it
+// exactly, sequence counts included), so a restart does not look like a spacecraft reboot.
+const RESUME_WITHIN_MS = 6 * 3600_000;
+let startedAtMs = Math.floor(Date.now() / 1000) * 1000;
+try {
+  const previous = JSON.parse(fs.readFileSync(file, 'utf8')) as { spacecraft?: { startedAtMs?: number }[] };
+  const was = previous.spacecraft?.[0]?.startedAtMs;
+  if (was && Date.now() - was < RESUME_WITHIN_MS) startedAtMs = was;
+} catch {
+  // first start
+}
 const fleet = await db.selectFrom('spacecraft').select(['id', 'key']).orderBy('key').execute();
 const spacecraft = [];
-const startedAtMs = Math.floor(Date.now() / 1000) * 1000;
 for (const sc of fleet) {
   const sheet = await findSheetInForce(db, sc.id, new Date());
   if (!sheet) continue;
@@ -28,7 +39,6 @@ if (!spacecraft.length) {
   console.error('[feed] no spacecraft with a sheet to simulate');
   process.exit(1);
 }
-const file = path.resolve('.data/demo-feed.json');
 fs.mkdirSync(path.dirname(file), { recursive: true });
 fs.writeFileSync(file, JSON.stringify({ baseUrl: config().PUBLIC_URL, spacecraft, ...(stations.length ? { stations } : {}) }, null, 2), { mode: 0o600 });
 const child = spawn(process.execPath, ['--import', 'tsx', 'ingest/feed.ts', '--config', file, ...process.argv.slice(2)], { stdio: 'inherit' });

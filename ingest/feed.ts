@@ -123,6 +123,7 @@ class RealTimeFeed {
   private readonly signal: AbortSignal;
   private pass: Pass | null = null;
   private nextAttemptMs = 0;
+  private realtimePosts = 0;
 
   constructor(sc: Config, baseUrl: string, passOpts: PassScheduleOptions, signal: AbortSignal, nowMs: number) {
     this.sc = sc;
@@ -192,15 +193,14 @@ class RealTimeFeed {
       const station = this.pass.station;
       const outcome = await postPackets({ baseUrl: this.baseUrl, token: this.sc.token, station, body: batch.body, signal: this.signal });
       const what = batch.oldestMs < Date.now() - PLAYBACK_AGE_MS ? 'playback' : 'real time';
-      log(formatOutcome(new Date(), this.sc.key, station, what, batch.body.length, countPackets(batch.body), outcome));
+      // Real time posts once a second: log a line a minute of them, and every playback and failure.
+      if (what === 'playback' || outcome.kind !== 'stored' || ++this.realtimePosts % 60 === 1) log(formatOutcome(new Date(), this.sc.key, station, what, batch.body.length, countPackets(batch.body), outcome));
       if (outcome.kind === 'retry') {
         if (!this.signal.aborted) this.store.unshift(batch.body, batch.newestMs);
         this.nextAttemptMs = Date.now() + this.backoff.next();
         return;
       }
       this.backoff.reset();
-      // Between dump requests, keep the simulation in step with the clock.
-      this.advance(Date.now());
     }
   }
 }

@@ -85,7 +85,7 @@ async function worker() {
     const res = await fetch(`http://127.0.0.1:${PORT}/api/ingest`, {
       method: 'POST',
       headers: { authorization: `Bearer ${token}`, 'content-type': 'application/octet-stream' },
-      body: Buffer.from(body.buffer, body.byteOffset, body.byteLength),
+      body: Buffer.from(body),
     });
     const r = (await res.json()) as { accepted: number };
     if (res.status !== 200) throw new Error(`ingest answered ${res.status}: ${JSON.stringify(r)}`);

@@ -394,11 +394,14 @@ async function test() {
   });
   runTs('scripts/migrate.ts', [], env);
   runTs('scripts/seed.ts', [], env);
+  const results = [];
+  log('type checking…');
+  const check = spawnSync(path.join(root, 'node_modules', '.bin', 'astro'), ['check', '--minimumSeverity', 'error'], { stdio: 'inherit', env: { ...process.env, ASTRO_TELEMETRY_DISABLED: '1' } });
+  results.push({ name: 'astro check', code: check.status, summary: { passed: check.status === 0 ? 1 : 0, failed: check.status === 0 ? 0 : 1, skipped: 0 } });
   build(env);
   spawnChild('web', process.execPath, ['dist/server/entry.mjs'], env);
   await waitForHttp(`http://127.0.0.1:${port}/sign-in`);
 
-  const results = [];
   const vitestJson = path.join(outDir, 'vitest.json');
   const v = spawnSync(path.join(root, 'node_modules', '.bin', 'vitest'), ['run', '--reporter=default', '--reporter=json', `--outputFile.json=${vitestJson}`, ...extraArgs], {
     stdio: 'inherit',

@@ -6,6 +6,7 @@ import { db, pool } from '../lib/server/db';
 import { runDueJobs } from '../lib/server/analysis-job';
 import { ensurePartitionsAhead } from '../lib/server/telemetry-store';
 import { tripMailHandler } from '../lib/server/trip-mail';
+import { createMailTransport, startMailWorker } from '../lib/server/mail';
 
 let running = false;
 async function tick(): Promise<void> {
@@ -26,11 +27,14 @@ async function tick(): Promise<void> {
 await ensurePartitionsAhead(pool, new Date());
 const every = cron.schedule('* * * * *', tick, { noOverlap: true });
 const daily = cron.schedule('17 0 * * *', () => ensurePartitionsAhead(pool, new Date()).catch((e) => console.error('[scheduler] partitions:', e)));
-console.log('[scheduler] running: analysis every minute');
+// The outbox worker sends queued mail (with retry and backoff) and the caution digests.
+const mail = startMailWorker(db, createMailTransport());
+console.log('[scheduler] running: analysis every minute, mail every few seconds');
 void tick();
 
 async function stop(): Promise<void> {
   await every.stop();
+  await mail.stop();
   await daily.stop();
   await db.destroy();
   process.exit(0);

@@ -1,13 +1,19 @@
-import { type Kysely, type Transaction } from 'kysely';
+import { sql, type Kysely, type Transaction } from 'kysely';
 import type { Database } from './db/schema';
 import { spacecraftSheetSchema, type SpacecraftSheet } from '../spacecraft-sheet.schema';
 import { insertAuditEntry } from './audit';
+import { EPOCH_2000_UNIX_S } from '../telemetry/types';
 
 type Db = Kysely<Database> | Transaction<Database>;
 
 /** A loop as the Fleet shows it. */
 export interface FleetLoop {
   id: number;
+  /** nominal · caution · warning · stale, from live trips and data age. */
+  state: 'nominal' | 'caution' | 'warning' | 'stale';
+  /** Latest analysed window of the loop, if any. */
+  latest: { windowStart: string; effectiveness: number | null; electrodeTemp_c: number | null; marginInUse_pct: number | null } | null;
+  liveTrips: number;
   shape: SpacecraftSheet['loops'][number]['shape'];
   axis: [number, number, number];
   ratedCurrent_A: number;
@@ -17,6 +23,10 @@ export interface FleetLoop {
 export interface FleetSpacecraft {
   key: string;
   name: string;
+  /** Time of the newest sample received (ISO), or null. */
+  lastDataAt: string | null;
+  /** Live trips of the whole spacecraft (not of one loop). */
+  bodyTrips: { level: 'caution' | 'warning'; n: number }[];
   sheetEffectiveFrom: string | null;
   loops: FleetLoop[];
 }
@@ -57,26 +67,50 @@ export function pickSheetInForce<T extends { effective_from: Date }>(sheets: rea
   return best ?? [...sheets].sort((x, y) => x.effective_from.getTime() - y.effective_from.getTime())[0];
 }
 
-/** Every spacecraft with the loops of its sheet in force now. */
+/** Data older than this makes a loop stale. */
+export const STALE_AFTER_S = 120;
+
+/** Every spacecraft with the loops of its sheet in force now and each loop's health. */
 export async function listFleet(db: Db, now = new Date()): Promise<FleetSpacecraft[]> {
-  const [craft, sheets] = await Promise.all([
+  const [craft, sheets, lastData, latest, trips] = await Promise.all([
     db.selectFrom('spacecraft').select(['id', 'key', 'name']).orderBy('key').execute(),
     db.selectFrom('spacecraft_sheet').select(['spacecraft_id', 'effective_from', 'sheet']).execute(),
+    sql<{ spacecraft_id: number; tt: number | null }>`
+      SELECT spacecraft_id, max(last_time_tag) AS tt FROM ingest_batch WHERE received_at > ${new Date(now.getTime() - 7 * 86_400_000)} GROUP BY 1`.execute(db),
+    sql<{ spacecraft_id: number; loop_id: number; window_start: Date; effectiveness: number | null; electrode_temp_mean_c: number | null; margin_in_use_pct: number | null }>`
+      SELECT DISTINCT ON (spacecraft_id, loop_id) spacecraft_id, loop_id, window_start, effectiveness, electrode_temp_mean_c, margin_in_use_pct
+      FROM loop_window ORDER BY spacecraft_id, loop_id, window_start DESC`.execute(db),
+    sql<{ spacecraft_id: number; loop_id: number | null; level: 'caution' | 'warning'; n: number }>`
+      SELECT spacecraft_id, loop_id, level, count(*)::int AS n FROM trip WHERE state <> 'resolved' AND cleared_at IS NULL GROUP BY 1, 2, 3`.execute(db),
   ]);
   return craft.map((c) => {
     const cur = pickSheetInForce(sheets.filter((s) => s.spacecraft_id === c.id), now);
     const sheet = cur ? (cur.sheet as SpacecraftSheet) : null;
+    const tt = lastData.rows.find((r) => r.spacecraft_id === c.id)?.tt;
+    const lastMs = tt === null || tt === undefined ? null : (EPOCH_2000_UNIX_S + Number(tt) / 65536) * 1000;
+    const stale = lastMs === null || now.getTime() - lastMs > STALE_AFTER_S * 1000;
+    const myTrips = trips.rows.filter((t) => t.spacecraft_id === c.id);
     return {
       key: c.key,
       name: c.name,
+      lastDataAt: lastMs === null ? null : new Date(lastMs).toISOString(),
+      bodyTrips: myTrips.filter((t) => t.loop_id === null).map((t) => ({ level: t.level, n: t.n })),
       sheetEffectiveFrom: cur ? cur.effective_from.toISOString() : null,
-      loops: (sheet?.loops ?? []).map((l) => ({
+      loops: (sheet?.loops ?? []).map((l) => {
+        const lt = myTrips.filter((t) => t.loop_id === l.id);
+        const w = latest.rows.find((r) => r.spacecraft_id === c.id && r.loop_id === l.id);
+        const state: FleetLoop['state'] = lt.some((t) => t.level === 'warning') ? 'warning' : lt.length ? 'caution' : stale ? 'stale' : 'nominal';
+        return {
         id: l.id,
+        state,
+        liveTrips: lt.reduce((n, t) => n + t.n, 0),
+        latest: w ? { windowStart: w.window_start.toISOString(), effectiveness: w.effectiveness, electrodeTemp_c: w.electrode_temp_mean_c, marginInUse_pct: w.margin_in_use_pct } : null,
         shape: l.shape,
         axis: l.axis,
         ratedCurrent_A: l.ratedCurrent_A,
         pumpStations: l.pumpStations.length,
-      })),
+        };
+      }),
     };
   });
 }

@@ -104,7 +104,7 @@ export async function loadQuantitySeries(db: Db, spacecraftId: number, info: Qua
       const r = await sql<{ w: number; n: number }>`
         SELECT floor((946684800 + before_time_tag / 65536.0) / 60)::bigint * 60000 AS w, sum(missing)::int AS n
         FROM sequence_gap WHERE spacecraft_id = ${spacecraftId}
-          AND before_time_tag > ${(fromMs / 1000 - 946684800) * 65536} AND before_time_tag <= ${(toMs / 1000 - 946684800) * 65536}
+          AND before_time_tag > ${Math.floor((fromMs / 1000 - 946684800) * 65536)} AND before_time_tag <= ${Math.floor((toMs / 1000 - 946684800) * 65536)}
         GROUP BY 1 ORDER BY 1`.execute(db);
       const points: Point[] = [];
       let last = fromMs;
