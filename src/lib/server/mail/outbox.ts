@@ -20,6 +20,8 @@ export interface OutgoingMail {
   text: string;
   html?: string | null;
   tripId?: number | null;
+  /** First moment the worker may send it (the caller's clock); default the database's now(). */
+  notBefore?: Date;
 }
 
 /** Attempts before a message is given up as failed. */
@@ -52,6 +54,7 @@ export async function enqueueMail(trx: Db, mail: OutgoingMail): Promise<number |
       text_body: mail.text,
       html_body: mail.html ?? null,
       trip_id: mail.tripId ?? null,
+      ...(mail.notBefore ? { next_attempt_at: mail.notBefore } : {}),
       ...(to.length === 0 ? { state: 'failed' as const, last_error: 'No recipient: nobody is on call and no active operator account exists.' } : {}),
     })
     .onConflict((oc) => oc.column('message_key').doNothing())

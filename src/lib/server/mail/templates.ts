@@ -195,7 +195,7 @@ export function renderDigest(input: { spacecraftKey: string; periodStart: Date; 
     ].join('\n');
   });
   const text = [
-    `CAUTION digest for ${input.spacecraftKey}: ${n} caution trip${n === 1 ? '' : 's'} opened ${span}`,
+    `CAUTION digest for ${input.spacecraftKey}: ${n} caution trip${n === 1 ? '' : 's'} raised ${span}`,
     '',
     ...lines,
     '',
@@ -208,18 +208,19 @@ export function renderDigest(input: { spacecraftKey: string; periodStart: Date; 
 
   const c = LEVEL_STYLE.caution;
   const th = (s: string, right = false) => `<th align="${right ? 'right' : 'left'}" style="padding:4px 8px;border-bottom:1px solid ${RULE};color:${MUTED};font-size:12px;font-weight:500">${s}</th>`;
-  const td = (s: string, right = false) => `<td align="${right ? 'right' : 'left'}" style="padding:4px 8px;border-bottom:1px solid ${RULE};font-variant-numeric:tabular-nums">${s}</td>`;
+  const td = (s: string, right = false, wrap = false) =>
+    `<td align="${right ? 'right' : 'left'}" style="padding:4px 8px;border-bottom:1px solid ${RULE};font-variant-numeric:tabular-nums${wrap ? '' : ';white-space:nowrap'}">${s}</td>`;
   const rows = entries
     .map((e) => {
       const url = tripUrl(publicUrl, e.tripId);
       const state = e.clearedAt ? `cleared ${escapeHtml(formatUtc(e.clearedAt).slice(11))}` : 'open';
-      return `<tr>${td(escapeHtml(formatUtc(e.at)))}${td(e.loopId === null ? 'body' : `L${e.loopId}`)}${td(escapeHtml(e.quantityLabel))}${td(escapeHtml(formatQuantity(e.value, e.unit)), true)}${td(escapeHtml(`${formatQuantity(e.limit, e.unit)} ${e.limitSide}`), true)}${td(`<span style="color:${c.colour};font-weight:600">${c.icon} CAUTION</span> ${state}`)}${td(`<a href="${escapeHtml(url)}" style="color:${GALLIUM}">Trip ${e.tripId}</a>`)}</tr>`;
+      return `<tr>${td(escapeHtml(formatUtc(e.at)))}${td(e.loopId === null ? 'body' : `L${e.loopId}`)}${td(escapeHtml(e.quantityLabel), false, true)}${td(escapeHtml(formatQuantity(e.value, e.unit)), true)}${td(escapeHtml(`${formatQuantity(e.limit, e.unit)} ${e.limitSide}`), true)}${td(`<span style="color:${c.colour};font-weight:600">${c.icon} CAUTION</span> ${state}`)}${td(`<a href="${escapeHtml(url)}" style="color:${GALLIUM}">Trip ${e.tripId}</a>`)}</tr>`;
     })
     .join('\n');
   const html = page(
     escapeHtml(subject),
     `<h1 style="font-size:18px;margin:0 0 4px 0"><span style="color:${c.colour}">${c.icon} CAUTION</span> digest for ${escapeHtml(input.spacecraftKey)}</h1>
-<p style="margin:0 0 12px 0;color:${MUTED}">${n} caution trip${n === 1 ? '' : 's'} opened ${escapeHtml(span)}</p>
+<p style="margin:0 0 12px 0;color:${MUTED}">${n} caution trip${n === 1 ? '' : 's'} raised ${escapeHtml(span)}</p>
 <table cellpadding="0" cellspacing="0" style="border-collapse:collapse;font-size:13px;width:100%">
 <thead><tr>${th('Time (UTC)')}${th('Loop')}${th('Quantity')}${th('Value', true)}${th('Limit', true)}${th('Level')}${th('Trip')}</tr></thead>
 <tbody>

@@ -84,6 +84,7 @@ export async function enqueueTripMail(trx: Db, facts: TripMailFacts, now: Date, 
     text: body.text,
     html: body.html,
     tripId: facts.tripId,
+    notBefore: now,
   });
   return { route: 'message', outboxId: id, duplicate: id === null };
 }
@@ -123,7 +124,7 @@ export async function flushDigests(db: Kysely<Database>, now: Date, digestMinute
         config().PUBLIC_URL,
       );
       const baseKey = `digest:${first.spacecraft_id}:${periodStart.toISOString()}`;
-      const mail = { kind: 'trip.digest', to: first.to_addresses, subject: body.subject, text: body.text, html: body.html, tripId: null };
+      const mail = { kind: 'trip.digest', to: first.to_addresses, subject: body.subject, text: body.text, html: body.html, tripId: null, notBefore: now };
       const outboxId = (await enqueueMail(trx, { ...mail, messageKey: baseKey })) ?? (await enqueueMail(trx, { ...mail, messageKey: `${baseKey}:${first.id}` }));
       await trx
         .updateTable('mail_digest_item')
