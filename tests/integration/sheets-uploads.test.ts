@@ -65,11 +65,11 @@ describe('POST /api/uploads/packets', () => {
     const t0 = Date.UTC(2026, 9, 20, 3);
     const good = loopStream(3000, t0, 10);
     const bad = encodePacket(loopRecord(3010, t0 + 300_100));
-    bad[30] ^= 0x55;
+    bad[30] = bad[30]! ^ 0x55;
     const file = concatBytes([good, bad, encodePacket(loopRecord(3020, t0 + 300_200))]);
     const operator = await clientAs('operator');
     const form = new FormData();
-    form.append('file', new Blob([file]), 'pass-0420.bin');
+    form.append('file', new Blob([Buffer.from(file)]), 'pass-0420.bin');
     const res = await fetch(`${BASE_URL}/api/uploads/packets?spacecraft=MR-1&station=karoo-ridge`, { method: 'POST', headers: { cookie: operator.cookie, origin: BASE_URL }, body: form });
     expect(res.status).toBe(201);
     const report = await res.json();

@@ -41,7 +41,11 @@ function FleetTable({ initial }: { initial: FleetResponse }) {
         <article key={sc.key} className="panel" aria-label={`Spacecraft ${sc.key}`}>
           <header className="flex items-baseline justify-between border-b border-rule px-4 py-3">
             <div>
-              <h2 className="text-base">{sc.key}</h2>
+              <h2 className="text-base">
+                <a href={`/spacecraft/${sc.key}`} title={`Link page of ${sc.key}: ingest batches, gaps, quarantine`}>
+                  {sc.key}
+                </a>
+              </h2>
               <p className="text-xs text-muted">{sc.name}</p>
             </div>
             <span className="text-xs text-muted">
@@ -77,8 +81,11 @@ function FleetTable({ initial }: { initial: FleetResponse }) {
               ))}
             </tbody>
           </table>
-          <footer className="px-4 py-2 text-xs text-muted">
-            Sheet in force from {sc.sheetEffectiveFrom ? sc.sheetEffectiveFrom.slice(0, 16).replace('T', ' ') + ' UTC' : '—'}
+          <footer className="flex items-baseline justify-between px-4 py-2 text-xs text-muted">
+            <span>Sheet in force from {sc.sheetEffectiveFrom ? sc.sheetEffectiveFrom.slice(0, 16).replace('T', ' ') + ' UTC' : '—'}</span>
+            <a href={`/spacecraft/${sc.key}/sheets`} aria-label={`Sheets of ${sc.key}`}>
+              Sheets
+            </a>
           </footer>
         </article>
       ))}

@@ -24,6 +24,16 @@ export const routeRules: Record<string, Partial<Record<Method, Access>>> = {
   '/api/spacecraft/[key]/sheets': { GET: 'signed-in', POST: ['engineer', 'admin'] },
   '/api/spacecraft/[key]/tokens': { GET: ['admin'], POST: ['admin'] },
   '/api/spacecraft/[key]/tokens/[id]': { DELETE: ['admin'] },
+  // Trips and the scheduled jobs.
+  '/trips': { GET: 'signed-in' },
+  '/trips/[id]': { GET: 'signed-in' },
+  '/api/trips': { GET: 'signed-in' },
+  '/api/trips/[id]': { GET: 'signed-in' },
+  '/api/trips/[id]/acknowledge': { POST: ['operator', 'analyst', 'engineer', 'admin'] },
+  '/api/trips/[id]/resolve': { POST: ['operator', 'analyst', 'engineer', 'admin'] },
+  '/api/jobs': { GET: ['admin'] },
+  '/api/jobs/run': { POST: ['engineer', 'admin'] },
+  '/admin/jobs': { GET: ['admin'] },
   '/uploads': { GET: 'signed-in' },
   '/spacecraft/[key]': { GET: 'signed-in' },
   '/spacecraft/[key]/sheets': { GET: 'signed-in' },
@@ -39,6 +49,12 @@ export const routeRules: Record<string, Partial<Record<Method, Access>>> = {
   '/roster/[key]': { GET: 'signed-in' },
   '/api/roster/[key]': { GET: 'signed-in', POST: ['operator', 'admin'] },
   '/api/roster/[key]/[id]': { DELETE: ['operator', 'admin'] },
+  // Passes and ground stations: everyone signed in sees them; engineers and admins edit stations.
+  '/passes': { GET: 'signed-in' },
+  '/stations': { GET: 'signed-in' },
+  '/api/passes': { GET: 'signed-in' },
+  '/api/stations': { GET: 'signed-in', POST: ['engineer', 'admin'] },
+  '/api/stations/[key]': { PATCH: ['engineer', 'admin'], DELETE: ['engineer', 'admin'] },
 };
 
 /** The access rule for a route pattern and method, or null when there is none (deny). */

@@ -1,0 +1,8 @@
+import { z } from 'zod';
+
+/** The create-token form; the same rules as the endpoint's input. */
+export const createTokenFormSchema = z.object({
+  label: z.string().trim().min(1, 'Give the token a label (e.g. the station or script that uses it).').max(80, 'At most 80 characters.'),
+});
+
+export type CreateTokenForm = z.infer<typeof createTokenFormSchema>;
