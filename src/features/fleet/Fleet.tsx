@@ -13,6 +13,14 @@ function axisText(axis: [number, number, number]): string {
   return `[${axis.map((a) => (Math.abs(a) < 5e-4 ? '0' : a.toFixed(3).replace(/\.?0+$/, ''))).join(', ')}]`;
 }
 
+function ageText(iso: string): string {
+  const s = Math.max(0, (Date.now() - new Date(iso).getTime()) / 1000);
+  const when = `${iso.slice(11, 19)} UTC`;
+  if (s < 90) return `${Math.round(s)} s ago (${when})`;
+  if (s < 5400) return `${Math.round(s / 60)} min ago (${when})`;
+  return `at ${iso.slice(0, 16).replace('T', ' ')} UTC`;
+}
+
 function FleetTable({ initial }: { initial: FleetResponse }) {
   const q = useQuery({ ...fleetQuery, initialData: initial });
   if (q.isPending) return <p className="text-muted">Loading the fleet…</p>;
@@ -57,8 +65,9 @@ function FleetTable({ initial }: { initial: FleetResponse }) {
               <tr>
                 <th>Loop</th>
                 <th>Geometry</th>
-                <th>Axis</th>
-                <th className="n">Rated</th>
+                <th className="n" title="kT / ideal, latest window">Effect.</th>
+                <th className="n" title="Electrode temperature, latest window">Electrode</th>
+                <th className="n" title="Momentum margin in use, latest window">Margin</th>
                 <th>State</th>
               </tr>
             </thead>
@@ -67,20 +76,42 @@ function FleetTable({ initial }: { initial: FleetResponse }) {
                 <tr key={l.id}>
                   <td className="num">L{l.id}</td>
                   <td>
-                    {shapeText(l.shape)}
-                    {l.pumpStations > 1 ? `, ${l.pumpStations} pumps` : ''}
+                    <span title={`axis ${axisText(l.axis)}, rated ${l.ratedCurrent_A} A`}>
+                      {shapeText(l.shape)}
+                      {l.pumpStations > 1 ? `, ${l.pumpStations} pumps` : ''}
+                    </span>
                   </td>
-                  <td className="num text-muted">{axisText(l.axis)}</td>
+                  <td className="n">{l.latest?.effectiveness != null ? l.latest.effectiveness.toFixed(2) : '—'}</td>
                   <td className="n">
-                    {l.ratedCurrent_A.toFixed(0)} <span className="unit">A</span>
+                    {l.latest?.electrodeTemp_c != null ? l.latest.electrodeTemp_c.toFixed(1) : '—'} <span className="unit">°C</span>
+                  </td>
+                  <td className="n">
+                    {l.latest?.marginInUse_pct != null ? l.latest.marginInUse_pct.toFixed(0) : '—'} <span className="unit">%</span>
                   </td>
                   <td>
-                    <StateBadge state="stale" />
+                    {l.liveTrips > 0 ? (
+                      <a href={`/trips?spacecraft=${sc.key}&state=open`} className="no-underline" title={`${l.liveTrips} live trip${l.liveTrips === 1 ? '' : 's'}`}>
+                        <StateBadge state={l.state} />
+                      </a>
+                    ) : (
+                      <StateBadge state={l.state} />
+                    )}
                   </td>
                 </tr>
               ))}
             </tbody>
           </table>
+          <p className="px-4 pt-2 text-xs text-muted">
+            {sc.lastDataAt ? <>Last data {ageText(sc.lastDataAt)}</> : 'No telemetry received yet'}
+            {sc.bodyTrips.length > 0 && (
+              <>
+                {' · '}
+                <a href={`/trips?spacecraft=${sc.key}`} className="font-medium text-copper">
+                  {sc.bodyTrips.reduce((n, t) => n + t.n, 0)} spacecraft-level trip(s)
+                </a>
+              </>
+            )}
+          </p>
           <footer className="flex items-baseline justify-between px-4 py-2 text-xs text-muted">
             <span>Sheet in force from {sc.sheetEffectiveFrom ? sc.sheetEffectiveFrom.slice(0, 16).replace('T', ' ') + ' UTC' : '—'}</span>
             <a href={`/spacecraft/${sc.key}/sheets`} aria-label={`Sheets of ${sc.key}`}>
