@@ -33,7 +33,8 @@ for (const sc of fleet) {
   const { token } = await createIngestToken(db, sc.id, LABEL, null);
   spacecraft.push({ key: sc.key, token, sheet: sheet.sheet, scenario: path.resolve(SCENARIOS[sc.key] ?? 'ingest/scenarios/healthy.json'), startedAtMs });
 }
-const stations = (await db.selectFrom('ground_station').select('key').orderBy('key').execute()).map((s) => s.key);
+// The feed predicts its passes with the same element sets and stations the app stores passes from.
+const stations = await db.selectFrom('ground_station').select(['key', 'latitude_deg', 'longitude_deg', 'altitude_m', 'elevation_mask_deg']).orderBy('key').execute();
 await db.destroy();
 if (!spacecraft.length) {
   console.error('[feed] no spacecraft with a sheet to simulate');

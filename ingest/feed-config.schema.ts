@@ -10,8 +10,23 @@ import { formatJsonPath, spacecraftSheetSchema } from '../src/lib/spacecraft-she
 import type { SpacecraftSheet } from '../src/lib/spacecraft-sheet.schema';
 import { checkScenarioAgainstSheet, loadScenarioFile } from './scenario.schema';
 import type { Scenario } from './scenario.schema';
+import type { FeedStation } from './passes';
 
 const stationKey = z.string().regex(/^[a-z0-9-]{2,32}$/, 'station key must be 2–32 characters of a–z, 0–9 and -');
+const within = (what: string, min: number, max: number) =>
+  z.number({ invalid_type_error: `${what} must be a number` }).min(min, `${what} must be from ${min} to ${max}`).max(max, `${what} must be from ${min} to ${max}`);
+
+/** A ground station: its key, and where it stands for predicted passes (WGS-84, metres, degrees). */
+const stationObject = z
+  .object({
+    key: stationKey,
+    name: z.string().optional(),
+    latitude_deg: within('latitude_deg', -90, 90).optional(),
+    longitude_deg: within('longitude_deg', -180, 180).optional(),
+    altitude_m: within('altitude_m', -500, 10_000).optional(),
+    elevation_mask_deg: within('elevation_mask_deg', 0, 45).optional(),
+  })
+  .strict();
 
 export const feedConfigSchema = z
   .object({
@@ -32,8 +47,13 @@ export const feedConfigSchema = z
           .strict(),
       )
       .min(1, 'spacecraft must list at least one spacecraft'),
-    /** Ground stations the passes rotate through (keys, or objects with a key). */
-    stations: z.array(z.union([stationKey, z.object({ key: stationKey }).passthrough()])).min(1).optional(),
+    /**
+     * Ground stations. Predicted passes (the default) need each one's position and mask; the fixed
+     * schedule takes keys alone and rotates through them.
+     */
+    stations: z.array(z.union([stationKey, stationObject])).min(1).optional(),
+    /** 'predicted' (default): SGP4 passes from each sheet's element set; 'fixed': a pass every 15 min, for tests. */
+    schedule: z.enum(['predicted', 'fixed'], { errorMap: () => ({ message: 'schedule must be "predicted" or "fixed"' }) }).default('predicted'),
   })
   .strict();
 
@@ -42,7 +62,11 @@ export type FeedConfigInput = z.input<typeof feedConfigSchema>;
 /** A validated feed configuration with sheets and scenarios loaded. */
 export interface FeedConfig {
   baseUrl: string;
+  /** Keys of the configured stations, in order. */
   stations: string[] | undefined;
+  schedule: 'predicted' | 'fixed';
+  /** The configured stations with positions (every one of them when the schedule is predicted). */
+  stationSites: FeedStation[];
   spacecraft: {
     key: string;
     token: string;
@@ -112,10 +136,22 @@ export function parseFeedConfig(input: unknown, configDir: string, source = '(in
     }
     spacecraft.push({ key: sc.key, token: sc.token, sheet: sheet.data, scenario, scenarioPath, startedAtMs: sc.startedAtMs });
   });
+  const stationSites: FeedStation[] = [];
+  parsed.data.stations?.forEach((s, i) => {
+    const o = typeof s === 'string' ? { key: s } : s;
+    const { latitude_deg, longitude_deg, altitude_m, elevation_mask_deg } = o as Partial<FeedStation>;
+    if (latitude_deg !== undefined && longitude_deg !== undefined && altitude_m !== undefined && elevation_mask_deg !== undefined) {
+      stationSites.push({ key: o.key, latitude_deg, longitude_deg, altitude_m, elevation_mask_deg });
+    } else if (parsed.data.schedule === 'predicted') {
+      problems.push(`stations[${i}]: predicted passes need the station's latitude_deg, longitude_deg, altitude_m and elevation_mask_deg (or set "schedule": "fixed")`);
+    }
+  });
   if (problems.length > 0) throw new FeedConfigError(source, problems);
   return {
     baseUrl: parsed.data.baseUrl.replace(/\/+$/, ''),
     stations: parsed.data.stations?.map((s) => (typeof s === 'string' ? s : s.key)),
+    schedule: parsed.data.schedule,
+    stationSites,
     spacecraft,
   };
 }

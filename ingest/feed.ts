@@ -4,8 +4,9 @@
  *   npx tsx ingest/feed.ts --config feed.json                 real time (default)
  *   npx tsx ingest/feed.ts --config feed.json --playback --hours 24 [--station north-fell]
  *
- * Real time: each spacecraft is simulated in step with the wall clock. During a pass its packets go
- * to `${baseUrl}/api/ingest?station=<key>` every second; between passes they are kept on board
+ * Real time: each spacecraft is simulated in step with the wall clock. Its passes are predicted by
+ * SGP4 from the sheet's element set over the configured stations (or follow the fixed schedule with
+ * `"schedule": "fixed"`). During a pass its packets go to `${baseUrl}/api/ingest?station=<key>` every second; between passes they are kept on board
  * and dumped (playback) at the next AOS, in requests of at most 8 MiB, before real time resumes.
  * Playback: a whole span is generated and posted as fast as the server takes it, then the process
  * prints its throughput and exits. Network and server errors are retried with backoff; SIGINT and
@@ -16,13 +17,14 @@ import { parseArgs } from 'node:util';
 import { generatePackets, PacketStream } from './generator';
 import { loadFeedConfig } from './feed-config.schema';
 import type { FeedConfig } from './feed-config.schema';
-import { DEFAULT_STATIONS, lastPassBefore, passAt } from './passes';
-import type { Pass, PassScheduleOptions } from './passes';
+import { DEFAULT_STATIONS, createPassSchedule } from './passes';
+import type { Pass, PassSchedule } from './passes';
 import { Backoff, MAX_REQUEST_BYTES, countPackets, formatOutcome, postPackets, takeBatch } from './uplink';
 
 const USAGE = `usage: npx tsx ingest/feed.ts --config <file.json> [--playback --hours <h>] [--station <key>]
 
-  --config <file>   feed configuration (baseUrl, spacecraft with key, token, sheet, scenario)
+  --config <file>   feed configuration (baseUrl, spacecraft with key, token, sheet, scenario;
+                    stations with positions for predicted passes, or "schedule": "fixed")
   --playback        generate --hours of telemetry per spacecraft, post it as fast as the
                     server takes it (8 MiB requests), print packets/s and exit
   --hours <h>       span of a playback, hours (default 24)
@@ -116,7 +118,7 @@ class OnboardStore {
 class RealTimeFeed {
   private readonly sc: Config;
   private readonly baseUrl: string;
-  private readonly passOpts: PassScheduleOptions;
+  private readonly schedule: PassSchedule;
   private readonly stream: PacketStream;
   private readonly store = new OnboardStore();
   private readonly backoff = new Backoff();
@@ -125,10 +127,10 @@ class RealTimeFeed {
   private nextAttemptMs = 0;
   private realtimePosts = 0;
 
-  constructor(sc: Config, baseUrl: string, passOpts: PassScheduleOptions, signal: AbortSignal, nowMs: number) {
+  constructor(sc: Config, baseUrl: string, schedule: PassSchedule, signal: AbortSignal, nowMs: number) {
     this.sc = sc;
     this.baseUrl = baseUrl;
-    this.passOpts = passOpts;
+    this.schedule = schedule;
     this.signal = signal;
     const startMs = sc.startedAtMs ?? Math.floor(nowMs / 1000) * 1000;
     this.stream = new PacketStream({ sheet: sc.sheet, scenario: sc.scenario, startMs });
@@ -137,7 +139,7 @@ class RealTimeFeed {
 
   /** Simulates from the scenario start to now; data sent in passes that are already over is not kept. */
   private catchUp(nowMs: number): void {
-    const last = lastPassBefore(this.sc.key, nowMs, this.passOpts);
+    const last = this.schedule.lastBefore(nowMs);
     const keepFrom = last?.losMs ?? -Infinity;
     log(`${new Date(nowMs).toISOString()} ${this.sc.key} catching up ${((nowMs - this.stream.timeMs) / 3_600_000).toFixed(2)} h of simulation from ${new Date(this.stream.timeMs).toISOString()}`);
     while (this.stream.timeMs + 60_000 < nowMs && !this.signal.aborted) {
@@ -157,7 +159,7 @@ class RealTimeFeed {
   }
 
   private watchPass(nowMs: number): void {
-    const pass = passAt(this.sc.key, nowMs, this.passOpts);
+    const pass = this.schedule.at(nowMs);
     const was = this.pass;
     if (was && (!pass || pass.aosMs !== was.aosMs)) {
       log(`${new Date(nowMs).toISOString()} ${this.sc.key} LOS ${was.station}, ${mib(this.store.bytes)} left on board`);
@@ -205,11 +207,24 @@ class RealTimeFeed {
   }
 }
 
-async function runRealTime(cfg: FeedConfig, signal: AbortSignal): Promise<void> {
-  const passOpts: PassScheduleOptions = { stations: cfg.stations ?? DEFAULT_STATIONS };
+/** Each spacecraft's contact schedule: predicted from its sheet's element set, or the fixed one. */
+function schedulesOf(cfg: FeedConfig): Map<string, PassSchedule> {
+  const out = new Map<string, PassSchedule>();
+  for (const sc of cfg.spacecraft) {
+    const schedule =
+      cfg.schedule === 'fixed'
+        ? createPassSchedule(sc.key, { schedule: 'fixed', stations: cfg.stations ?? DEFAULT_STATIONS })
+        : createPassSchedule(sc.key, { schedule: 'predicted', tle: sc.sheet.orbit.tle, stations: cfg.stationSites });
+    out.set(sc.key, schedule);
+  }
+  return out;
+}
+
+async function runRealTime(cfg: FeedConfig, schedules: Map<string, PassSchedule>, signal: AbortSignal): Promise<void> {
   const now = Date.now();
-  const feeds = cfg.spacecraft.map((sc) => new RealTimeFeed(sc, cfg.baseUrl, passOpts, signal, now));
-  log(`${new Date().toISOString()} feed running in real time for ${cfg.spacecraft.map((s) => s.key).join(', ')} → ${cfg.baseUrl}`);
+  const feeds = cfg.spacecraft.map((sc) => new RealTimeFeed(sc, cfg.baseUrl, schedules.get(sc.key)!, signal, now));
+  const how = cfg.schedule === 'fixed' ? 'the fixed pass schedule' : `passes predicted over ${cfg.stationSites.map((s) => s.key).join(', ')}`;
+  log(`${new Date().toISOString()} feed running in real time for ${cfg.spacecraft.map((s) => s.key).join(', ')} → ${cfg.baseUrl}, ${how}`);
   await Promise.all(feeds.map((f) => f.run()));
 }
 
@@ -325,6 +340,20 @@ async function main(): Promise<number> {
     return 2;
   }
 
+  let schedules = new Map<string, PassSchedule>();
+  if (!args.values.playback) {
+    if (cfg.schedule === 'predicted' && cfg.stationSites.length === 0) {
+      process.stderr.write('real time with predicted passes needs ground stations with positions in the configuration ("stations"), or "schedule": "fixed"\n');
+      return 2;
+    }
+    try {
+      schedules = schedulesOf(cfg);
+    } catch (err) {
+      process.stderr.write(`cannot predict passes: ${(err as Error).message}\n`);
+      return 2;
+    }
+  }
+
   const stop = new AbortController();
   const onSignal = (name: string) => {
     if (stop.signal.aborted) process.exit(130);
@@ -336,7 +365,7 @@ async function main(): Promise<number> {
   process.on('unhandledRejection', (err) => log(`${new Date().toISOString()} unhandled rejection: ${String(err)}`));
 
   if (args.values.playback) await runPlayback(cfg, hours, args.values.station, stop.signal);
-  else await runRealTime(cfg, stop.signal);
+  else await runRealTime(cfg, schedules, stop.signal);
   return 0;
 }
 

@@ -139,6 +139,21 @@ export const scenarioSchema = z
       })
       .strict()
       .default({}),
+    /**
+     * Identification dither added by the on-board software to every loop's current command: a
+     * zero-mean multi-sine on the 2nd, 3rd and 4th harmonics of period_s (6, 4 and 3 s by default)
+     * with its peak at amplitude × rated current (see ingest/sim/excitation.ts). On unless turned off.
+     */
+    excitation: z
+      .object({
+        enabled: z.boolean({ invalid_type_error: 'excitation.enabled must be true or false' }).default(true),
+        /** Peak of the dither as a fraction of the loop's rated current (0.1–0.2 is usual). */
+        amplitude: finite('amplitude').min(0, 'amplitude must be 0 or more').max(0.5, 'amplitude must be at most 0.5 (a fraction of the rated current)').default(0.15),
+        /** Repeat period of the multi-sine, s; its lines are at half, a third and a quarter of it. */
+        period_s: finite('period_s').min(2, 'period_s must be at least 2').max(120, 'period_s must be at most 120').default(12),
+      })
+      .strict()
+      .default({}),
     faults: z.array(faultSchema).default([]),
   })
   .strict();

@@ -2,6 +2,29 @@
  * The simulated spacecraft: truth model (rigid body, loops, driver, heat, environment), sensors,
  * on-board control and the telemetry it produces. Steps at 100 Hz with RK4; sensors, control,
  * heat and housekeeping run at 10 Hz; burst captures sample the pump pressure at 400 Hz.
+ *
+ * Sampling. Every fast housekeeping channel (gyro rate, pump current, electrode voltage, flow,
+ * pressure rise) is the mean over the 100 ms that end at the packet's time tag, as integrating
+ * converters and a rate-integrating gyro deliver them; the temperatures, the magnetometer and the
+ * attitude estimate are read at the time tag. All the fast channels thus describe the same instant
+ * (the middle of the interval): the ground's torque-constant fit separates kT from the losses only
+ * through the fluid's inertia, and a lag of one channel against another would bias it (10 ms of lag
+ * between current and flow biases kT by about 1 % on these loops). Over each 10 ms step the driver
+ * current is held, so its mean is exact; flow and body rate are continuous and averaged by the
+ * trapezoid rule over the step ends; the pulsation sines are averaged exactly.
+ *
+ * Pressure rise. The taps sit at the ends of the pump section, so the reported rise is what the
+ * fluid there develops: η·Σ I·B/b minus the MHD (Hartmann) loss in the pump gaps, plus any
+ * pulsation and noise. The ground adds the gap loss back from the sheet before it forms the
+ * pressure effectiveness (src/lib/physics/analysis.ts), as the on-board pressure-per-amp monitor
+ * below does.
+ *
+ * Excitation. Between slews the attitude controller would hold each loop at a nearly constant
+ * current, from which no ground can tell the torque constant from the losses. The on-board software
+ * adds the scenario's identification dither (a zero-mean multi-sine, ingest/sim/excitation.ts) to every
+ * loop's current command, except in safe mode and around the loop's burst captures. To live with it,
+ * a slew is complete when the attitude error has stayed inside its band for a dwell time, and momentum
+ * management (unload decision, background magnetic unloading) works on the smoothed stored momentum.
  */
 
 import type { SheetLoop, SpacecraftSheet } from '../../src/lib/spacecraft-sheet.schema';
@@ -15,6 +38,7 @@ import type { Scenario } from '../scenario.schema';
 import { AttitudeController, allocationMatrix, rateDampingDipole, unloadDipole } from './controller';
 import { TruthIntegrator, createTruthModel, initialState, zeroInputs } from './dynamics';
 import type { TruthInputs, TruthModel } from './dynamics';
+import { LoopExcitation } from './excitation';
 import { effectivenessAt, factorAt, gyroBiasAt, loopFaults, pulsationsAt } from './faults';
 import { LossTable } from './loss-table';
 import { circularOrbitFromTle, dipoleField, gravityGradientTorque, orbitPosition } from './orbit';
@@ -79,6 +103,13 @@ const HEATER_POWER_W = 1.5;
 const RESIDUAL_DIPOLE_PER_STATION_AM2 = 0.004;
 const TORQUER_MAX_AM2 = 0.2;
 const UNLOAD_GAIN_1_S = 1e-2;
+/**
+ * Gain of the background unloading that runs outside the unload mode too: the gravity-gradient and
+ * residual-dipole torques of an inertially pointed spacecraft have a non-zero mean, and without it the
+ * loops would fill up over hours and meet a slew already half full (common practice for magnetic
+ * momentum management).
+ */
+const BACKGROUND_UNLOAD_GAIN_1_S = 2e-3;
 const RATE_DAMPING_TIME_S = 60;
 const UNLOAD_ENTER = 0.6;
 const UNLOAD_EXIT = 0.2;
@@ -92,8 +123,24 @@ const ATTITUDE_GAIN_1_S = 0.05;
 const RATE_BANDWIDTH_RAD_S = 0.3;
 const RATE_ZETA = 0.9;
 const SLEW_DONE_RAD = (0.5 * Math.PI) / 180;
-const SLEW_DONE_RATE = 2e-4;
+/** A slew is complete once the attitude error has stayed inside SLEW_DONE_RAD for this long, s. */
+const SLEW_SETTLE_S = 20;
 const SLEW_TIMEOUT_S = 900;
+/**
+ * Slew rates are limited so that a slew stores at most this fraction of the loops' capacity: enough for
+ * a 10° slew in a few minutes, while the current stays low enough that a healthy electrode warms by well
+ * under 0.02 K/s over a 60 s window.
+ */
+const SLEW_MOMENTUM_FRACTION = 0.35;
+/**
+ * The dither fades out (raised cosine over EXCITATION_FADE_S) so that it is zero from
+ * EXCITATION_QUIET_BEFORE_S before a burst capture of its loop until the capture ends, and fades back
+ * in after: the capture shows the pump's own spectrum, not the calibration signal.
+ */
+const EXCITATION_QUIET_BEFORE_S = 4;
+const EXCITATION_FADE_S = 2;
+/** Time constant of the smoothed loop momentum that the unload decision looks at, s. */
+const FILL_SMOOTHING_S = 30;
 
 interface BurstCapture {
   startMs: number;
@@ -117,6 +164,8 @@ interface LoopRuntime {
   r0: number;
   eta0: number;
   hCap: number;
+  /** Loop momentum smoothed over FILL_SMOOTHING_S, N·m·s. */
+  hSmooth: number;
   thermal: LoopThermal;
   // fault values held over the current tick
   eta: number;
@@ -125,9 +174,11 @@ interface LoopRuntime {
   // driver
   current: number;
   cmd: number;
+  excitation: LoopExcitation;
   enabled: boolean;
   heater: boolean;
-  // tick accumulators
+  // tick accumulators, and the flow at the start of the step
+  v0: number;
   sumI: number;
   sumI2: number;
   sumP: number;
@@ -201,6 +252,8 @@ export class SpacecraftSim {
   private nextSlewS: number;
   private slewCount = 0;
   private slewStartS = 0;
+  private settledSinceS: number | null = null;
+  private readonly sumRate = new Float64Array(3);
   private readonly controller: AttitudeController;
   private torquer: Vec3 = [0, 0, 0];
   private fieldInertial: Vec3 = [0, 0, 0];
@@ -222,6 +275,8 @@ export class SpacecraftSim {
     const inertia = opts.sheet.massProperties.inertia_kg_m2;
     this.dampingGain = Math.max(inertia[0][0], inertia[1][1], inertia[2][2]) / RATE_DAMPING_TIME_S;
 
+    const sink0 = this.sinkTemperature(opts.startMs);
+    const ex = opts.scenario.excitation;
     this.loops = opts.sheet.loops.map((loop, index) => {
       const geo = loopGeometry(loop);
       const eta0 = opts.scenario.loops.find((l) => l.id === loop.id)?.effectiveness ?? DEFAULT_EFFECTIVENESS[index % 4]!;
@@ -243,14 +298,23 @@ export class SpacecraftSim {
         r0: 0.01 + 0.006 * stations,
         eta0,
         hCap: this.model.loops[index]!.hPerV * steadySpeed(losses, DESIGN_EFFECTIVENESS * kp * loop.ratedCurrent_A),
-        thermal: new LoopThermal(defaultThermalParameters(stations, geo.fluidMass_kg), 18),
+        hSmooth: 0,
+        // at rest with the radiator when the scenario starts
+        thermal: new LoopThermal(defaultThermalParameters(stations, geo.fluidMass_kg), sink0),
         eta: eta0,
         rFactor: 1,
         sinkFactor: 1,
         current: 0,
         cmd: 0,
+        excitation: new LoopExcitation({
+          amplitude_A: ex.enabled ? ex.amplitude * loop.ratedCurrent_A : 0,
+          period_s: ex.period_s,
+          // the loops of one spacecraft a third of the period apart
+          shift_s: (index * ex.period_s) / 3,
+        }),
         enabled: true,
         heater: false,
+        v0: 0,
         sumI: 0,
         sumI2: 0,
         sumP: 0,
@@ -277,7 +341,7 @@ export class SpacecraftSim {
     const I = opts.sheet.massProperties.inertia_kg_m2;
     this.maxRate = [0, 1, 2].map((j) => {
       const h = this.loops.reduce((s, l) => s + Math.abs(l.axis[j]!) * l.hCap, 0);
-      return (0.5 * h) / I[j]![j]!;
+      return (SLEW_MOMENTUM_FRACTION * h) / I[j]![j]!;
     }) as Vec3;
     const torqueCapacity = [0, 1, 2].map((j) => this.loops.reduce((s, l) => s + Math.abs(l.axis[j]!) * l.kT * l.rated, 0));
     this.controller = new AttitudeController({
@@ -349,18 +413,20 @@ export class SpacecraftSim {
       l.sumP = 0;
       l.sumV = 0;
     }
+    this.sumRate.fill(0);
     for (let k = 0; k < STEPS_PER_TICK; k++) this.integrate();
     const tMs = this.timeMs;
     const tS = this.timeS;
     this.updateEnvironment();
     const { coarse, fine } = unixMsToCuc(tMs);
 
-    // Attitude sensors: gyro with bias, attitude estimate, magnetometer.
+    // Attitude sensors: gyro (mean rate over the tick) with bias, attitude estimate, magnetometer.
     const bias = gyroBiasAt(this.scenario.faults, tS);
+    const nSteps = STEPS_PER_TICK;
     const rate: Vec3 = [
-      this.y[0]! + bias[0] + GYRO_NOISE_RAD_S * this.rng.normal(),
-      this.y[1]! + bias[1] + GYRO_NOISE_RAD_S * this.rng.normal(),
-      this.y[2]! + bias[2] + GYRO_NOISE_RAD_S * this.rng.normal(),
+      this.sumRate[0]! / nSteps + bias[0] + GYRO_NOISE_RAD_S * this.rng.normal(),
+      this.sumRate[1]! / nSteps + bias[1] + GYRO_NOISE_RAD_S * this.rng.normal(),
+      this.sumRate[2]! / nSteps + bias[2] + GYRO_NOISE_RAD_S * this.rng.normal(),
     ];
     const qTrue: Quat = [this.y[3]!, this.y[4]!, this.y[5]!, this.y[6]!];
     const dq: Quat = [
@@ -489,15 +555,21 @@ export class SpacecraftSim {
     tau[2] = gg[2] + m[0] * b[1] - m[1] * b[0];
   }
 
-  /** One 100 Hz step: driver currents, RK4 of the truth model, accumulators and burst samples. */
+  /**
+   * One 100 Hz step: driver currents, RK4 of the truth model, accumulators and burst samples. The
+   * accumulators take each channel's mean over the step (see the file comment).
+   */
   private integrate(): void {
     const t0 = this.step * STEP_S;
     const t0Ms = this.timeMs;
+    const y = this.y;
+    const w0x = y[0]!, w0y = y[1]!, w0z = y[2]!;
     for (const l of this.loops) {
       const target = l.enabled ? l.cmd : 0;
       l.current = target + (l.current - target) * this.driverDecay + DRIVER_NOISE_A * this.rng.normal();
       if (!l.enabled && Math.abs(l.current) < 3 * DRIVER_NOISE_A) l.current = 0;
       this.inputs.pumpPressure_Pa[l.index] = l.eta * l.kp * l.current;
+      l.v0 = y[7 + l.index]!;
       if (l.burst === null && t0 >= l.nextBurstS) {
         l.burst = {
           startMs: t0Ms,
@@ -510,21 +582,27 @@ export class SpacecraftSim {
     this.integrator.step(t0, STEP_S);
     this.step++;
     const t1 = this.step * STEP_S;
+    this.sumRate[0]! += 0.5 * (w0x + y[0]!);
+    this.sumRate[1]! += 0.5 * (w0y + y[1]!);
+    this.sumRate[2]! += 0.5 * (w0z + y[2]!);
     for (const l of this.loops) {
-      const v = this.y[7 + l.index]!;
-      const developed = this.inputs.pumpPressure_Pa[l.index]! - l.losses.mhd(v);
+      const v0 = l.v0, v1 = y[7 + l.index]!;
+      const vMean = 0.5 * (v0 + v1);
+      const pump = this.inputs.pumpPressure_Pa[l.index]!;
       const pulses = this.inputs.pulsations[l.index]!;
-      let p = developed;
-      for (const pu of pulses) p += pu.amplitude_Pa * Math.sin(pu.omega_rad_s * t1);
+      // mean over the step of the developed rise: the MHD loss is linear in v, each sine averages exactly
+      let p = pump - l.losses.mhd(vMean);
+      for (const pu of pulses) p += (pu.amplitude_Pa * (Math.cos(pu.omega_rad_s * t0) - Math.cos(pu.omega_rad_s * t1))) / (pu.omega_rad_s * STEP_S);
       l.sumI += l.current;
       l.sumI2 += l.current * l.current;
-      l.sumV += v;
+      l.sumV += vMean;
       l.sumP += p;
       const cap = l.burst;
       if (cap !== null) {
         for (let j = 0; j < SUBSAMPLES && cap.n < BURST_SAMPLES; j++) {
-          const ts = t0 + j / BURST_RATE_HZ;
-          let ps = developed + PRESSURE_NOISE_PA * this.rng.normal();
+          const u = j / SUBSAMPLES;
+          const ts = t0 + u * STEP_S;
+          let ps = pump - l.losses.mhd(v0 + u * (v1 - v0)) + PRESSURE_NOISE_PA * this.rng.normal();
           for (const pu of pulses) ps += pu.amplitude_Pa * Math.sin(pu.omega_rad_s * ts);
           cap.pressure[cap.n] = ps;
           if (cap.current !== null) cap.current[cap.n] = l.current + CURRENT_NOISE_A * this.rng.normal();
@@ -601,6 +679,16 @@ export class SpacecraftSim {
     l.monN = 0;
   }
 
+  /** 1 away from burst captures, 0 from EXCITATION_QUIET_BEFORE_S before one until it ends, raised-cosine fades between. */
+  private excitationEnvelope(l: LoopRuntime, tS: number): number {
+    if (l.burst !== null) return 0;
+    const captureS = BURST_SAMPLES / BURST_RATE_HZ;
+    const toQuiet = l.nextBurstS - EXCITATION_QUIET_BEFORE_S - tS; // > 0 before the quiet time
+    const sinceEnd = tS - (l.nextBurstS - BURST_PERIOD_S + captureS); // > 0 after the previous capture
+    const fade = (x: number) => (x >= EXCITATION_FADE_S ? 1 : x <= 0 ? 0 : 0.5 - 0.5 * Math.cos((Math.PI * x) / EXCITATION_FADE_S));
+    return Math.min(fade(toQuiet), l.captures > 0 ? fade(sinceEnd) : 1);
+  }
+
   private protectLoop(l: LoopRuntime, tMs: number): void {
     const te = l.thermal.electrode_C;
     if (l.enabled && te > ELECTRODE_OVERTEMP_C) {
@@ -617,9 +705,12 @@ export class SpacecraftSim {
   private control(tS: number, tMs: number, q: Quat, omega: Vec3, b_T: Vec3): void {
     const I = this.sheet.massProperties.inertia_kg_m2;
     const h: Vec3 = [0, 0, 0];
+    const smoothing = 1 - Math.exp(-TICK_MS / 1000 / FILL_SMOOTHING_S);
     for (const l of this.loops) {
       const hi = l.hPerV * l.vMeas;
       for (let j = 0; j < 3; j++) h[j]! += hi * l.axis[j]!;
+      // the stored momentum the unload decision sees: first-order smoothing takes out the zero-mean dither
+      l.hSmooth += smoothing * (hi - l.hSmooth);
     }
     const allEnabled = this.loops.every((l) => l.enabled);
     const P = this.projector;
@@ -627,6 +718,8 @@ export class SpacecraftSim {
     const theta = project(attitudeErrorVector(q, this.qRef));
     const omegaC = project(omega);
     const thetaNorm = Math.hypot(theta[0], theta[1], theta[2]);
+    if (this.mode === ATTITUDE_MODE.slew && thetaNorm < SLEW_DONE_RAD) this.settledSinceS ??= tS;
+    else this.settledSinceS = null;
 
     // Mode logic.
     if (!allEnabled) {
@@ -636,12 +729,12 @@ export class SpacecraftSim {
       this.controller.reset();
       this.setMode(ATTITUDE_MODE.pointing, tMs, ', attitude reacquired');
     } else {
-      const fill = Math.max(...this.loops.map((l) => Math.abs(l.hPerV * l.vMeas) / l.hCap));
+      const fill = Math.max(...this.loops.map((l) => Math.abs(l.hSmooth) / l.hCap));
       if (this.mode === ATTITUDE_MODE.pointing && fill > UNLOAD_ENTER) {
         this.setMode(ATTITUDE_MODE.unload, tMs);
       } else if (this.mode === ATTITUDE_MODE.unload && fill < UNLOAD_EXIT) {
         this.setMode(ATTITUDE_MODE.pointing, tMs);
-      } else if (this.mode === ATTITUDE_MODE.slew && thetaNorm < SLEW_DONE_RAD && Math.hypot(...omegaC) < SLEW_DONE_RATE) {
+      } else if (this.mode === ATTITUDE_MODE.slew && this.settledSinceS !== null && tS - this.settledSinceS >= SLEW_SETTLE_S) {
         this.event(tMs, 1, EVENT_CODE.slewComplete, null, `slew complete in ${(tS - this.slewStartS).toFixed(1)} s`);
         this.setMode(ATTITUDE_MODE.pointing, tMs);
       } else if (this.mode === ATTITUDE_MODE.slew && tS - this.slewStartS > SLEW_TIMEOUT_S) {
@@ -658,6 +751,7 @@ export class SpacecraftSim {
           quatNormalizeInPlace(this.qRef);
           this.slewCount++;
           this.slewStartS = tS;
+          this.settledSinceS = null;
           this.setMode(ATTITUDE_MODE.slew, tMs, ` ${angle.toFixed(1)} deg about loop ${this.loops[k]!.id} axis`);
         }
       }
@@ -666,7 +760,8 @@ export class SpacecraftSim {
     const safe = this.mode === ATTITUDE_MODE.safe;
     const tau = this.controller.torque(I, theta, omegaC, h, TICK_MS / 1000, safe);
 
-    // Body torque −ḣ_i n̂_i: ḣ = −M τ; current from the ideal torque constant plus loss feed-forward.
+    // Body torque −ḣ_i n̂_i: ḣ = −M τ; current from the ideal torque constant plus loss feed-forward,
+    // then the identification dither on top (none in safe mode, none around a burst capture).
     for (const l of this.loops) {
       if (!l.enabled) {
         l.cmd = 0;
@@ -675,11 +770,15 @@ export class SpacecraftSim {
       const m = this.allocation;
       const r = l.index * 3;
       const hdot = -(m[r]! * tau[0] + m[r + 1]! * tau[1] + m[r + 2]! * tau[2]);
-      const cmd = hdot / l.kT + l.losses.total(l.vMeas) / l.kp;
-      l.cmd = Math.max(-l.rated, Math.min(l.rated, cmd));
+      const cmd = Math.max(-l.rated, Math.min(l.rated, hdot / l.kT + l.losses.total(l.vMeas) / l.kp));
+      const dither = safe ? 0 : this.excitationEnvelope(l, tS) * l.excitation.at(tS);
+      l.cmd = Math.max(-l.rated, Math.min(l.rated, cmd + dither));
     }
-    // Torquer: unloading in that mode, and always damping the rates the loops cannot reach.
-    const unload = this.mode === ATTITUDE_MODE.unload ? unloadDipole(h, b_T, UNLOAD_GAIN_1_S, TORQUER_MAX_AM2) : [0, 0, 0];
+    // Torquer: background unloading (strong in the unload mode), and always damping the rates the loops
+    // cannot reach. Unloading acts on the smoothed stored momentum: the zero-mean dither is nothing to unload.
+    const hStored: Vec3 = [0, 0, 0];
+    for (const l of this.loops) for (let j = 0; j < 3; j++) hStored[j]! += l.hSmooth * l.axis[j]!;
+    const unload = safe ? [0, 0, 0] : unloadDipole(hStored, b_T, this.mode === ATTITUDE_MODE.unload ? UNLOAD_GAIN_1_S : BACKGROUND_UNLOAD_GAIN_1_S, TORQUER_MAX_AM2);
     const damp = rateDampingDipole([omega[0] - omegaC[0], omega[1] - omegaC[1], omega[2] - omegaC[2]], b_T, this.dampingGain);
     this.torquer = [0, 1, 2].map((j) => Math.max(-TORQUER_MAX_AM2, Math.min(TORQUER_MAX_AM2, unload[j]! + damp[j]!))) as Vec3;
   }

@@ -10,8 +10,8 @@ export const DEFAULT_RULES: LimitRuleInput[] = [
     rationale: 'Invented for the demo: healthy conduction-pumped loops reach about 0.6–0.8 of the ideal I·B·a·R; three consecutive 60 s windows below 0.55 is a loss worth a look.',
   },
   {
-    quantity: 'drift_cusum_lo', loopId: null, cautionHigh: 4.2, warningHigh: 8, cautionLow: null, warningLow: null, clearHigh: 1, clearLow: null, persistence: 1,
-    rationale: 'Common practice: tabular CUSUM with k = 0.5σ and decision interval h ≈ 4–5σ (NIST/SEMATECH e-Handbook §6.3.2.3 uses h = 4.1959 in its example).',
+    quantity: 'drift_cusum_lo', loopId: null, cautionHigh: 7, warningHigh: 12, cautionLow: null, warningLow: null, clearHigh: 2, clearLow: null, persistence: 1,
+    rationale: 'Tabular CUSUM with k = 0.5σ (NIST/SEMATECH e-Handbook §6.3.2.3); h = 7σ instead of the textbook 4–5σ because window estimates are mildly correlated and the baseline is finite: by Monte-Carlo runs on the analysis core this gives thousands of windows between false alarms.',
   },
   {
     quantity: 'electrode_temp_mean_c', loopId: null, cautionHigh: 55, warningHigh: 70, cautionLow: null, warningLow: null, clearHigh: 50, clearLow: null, persistence: 2,

@@ -1,5 +1,5 @@
 import type { SheetLoop, SpacecraftSheet } from '../spacecraft-sheet.schema';
-import { lossTorqueFunction } from './friction';
+import { lossTorqueFunction, mhdPressureLoss } from './friction';
 import { predictNextTemperature, timeToLimit, fitThermalModel, type ThermalFit } from './heating';
 import { loopGeometry, momentumPerVelocity, type LoopGeometry } from './loop-geometry';
 import { forecastSaturation, momentumCapacity } from './momentum';
@@ -124,10 +124,14 @@ export interface LoopWindow {
   effectivenessStdErr: number | null;
   /** Effectiveness referred to the magnet reference temperature. */
   compensatedEffectiveness: number | null;
-  /** Fitted Δp/I from the pressure channel, Pa/A, its standard error, and its ratio to the ideal. */
+  /**
+   * Fitted Δp/I from the pressure channel with the pump gaps' MHD loss added back (the taps report the
+   * rise less that loss), Pa/A, its standard error, and its ratio to the ideal (the pump effectiveness η).
+   */
   pressureConstant_pa_per_a: number | null;
   pressureConstantStdErr_pa_per_a: number | null;
   pressureEffectiveness: number | null;
+  /** Mean reported pressure rise (as measured, MHD loss not added back), Pa. */
   pressureMean_pa: number | null;
   /** Electrode-circuit resistance with the back-EMF removed, Ω. */
   resistance_ohm: number | null;
@@ -285,6 +289,8 @@ function analyseLoop(L: LoopInput, loop: SheetLoop, origin: number, o: Required<
   const minStd = o.minCurrentStd_a ?? 0.02 * loop.ratedCurrent_A;
   const minRms = o.minRmsCurrent_a ?? 0.05 * loop.ratedCurrent_A;
   const emfPerV = backEmf(1, loop);
+  // the pressure taps see the Lorentz rise less the gap's MHD loss; it is added back before kp is fitted
+  const mhdPerV = mhdPressureLoss(1, loop);
   const groups = windowGroups(L.t_s, origin, W);
   const rows: LoopWindow[] = [];
   const absHMean: number[] = [], mid: number[] = [];
@@ -342,7 +348,7 @@ function analyseLoop(L: LoopInput, loop: SheetLoop, origin: number, o: Required<
     const sxx = tSS - (tS * tS) / tN;
     const riseSlope = tN >= 2 && sxx > 0 ? (tST - (tS * tT) / tN) / sxx : Number.NaN;
     const kfit = fitTorqueConstant(fitSeries.current, fitSeries.flow, fitSeries.fluidTorque, { minCurrentStd_a: minStd, intercept: o.fitIntercept, clusterLength: 2 * (2 * o.sgHalfWidth + 1) }, a, b, fitSeries.flowAbsFlow);
-    const pfit = fitPressureConstant(L.current_a, L.pressure_pa, minStd, a, b);
+    const pfit = fitPressureConstant(L.current_a, L.pressure_pa, minStd, a, b, 20, L.flow_m_s, mhdPerV);
     const magT = avg(sMag, nMag);
     const eff = kfit ? kfit.kT / kTIdeal : null;
     const pElec = nP > 0 ? sP / nP : Number.NaN;

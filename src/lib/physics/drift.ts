@@ -155,7 +155,10 @@ export interface DriftReport {
   method: 'ewma' | 'cusum' | null;
   direction: 'up' | 'down' | null;
   signalTime_s: number | null;
-  /** Time of the last observation at which the CUSUM sum (in the signal's direction) was 0 before the signal. */
+  /**
+   * Time of the last observation before the change: the maximum-likelihood change point (changePoint)
+   * among the observations since the CUSUM sum in the signal's direction was last 0 before the signal.
+   */
   onsetTime_s: number | null;
   /** Size of the shift, series units: mean since onset − baseline mean. */
   shift: number | null;
@@ -166,6 +169,26 @@ export interface DriftReport {
    * baseline, erf(|z|/√2) with z = shift/(σ/√n). Independent observations assumed.
    */
   confidence: number | null;
+}
+
+/**
+ * Change point of a normal mean shifted from μ₀ by an unknown amount, by maximum likelihood over the
+ * observations after `from` up to `to` (inclusive): the last observation before the change is the τ in
+ * [from, to) that maximises (m_τ)·(x̄_τ − μ₀)², with x̄_τ the mean and m_τ the count of the finite
+ * observations in (τ, to] (the log-likelihood ratio of a step at τ, σ known; Hinkley, "Inference about the
+ * change-point from cumulative sum tests", Biometrika 58:509, 1971, from memory). Starting from the CUSUM's
+ * last zero keeps Page's estimate as the earliest candidate; the maximum refines it when small pre-change
+ * deviations had already lifted the sum off zero before a large shift. −1 stands for "before the first".
+ */
+export function changePoint(values: ArrayLike<number>, mu0: number, from: number, to: number): number {
+  let best = from, bestScore = -Infinity, s = 0, m = 0;
+  for (let tau = to - 1; tau >= from; tau--) {
+    const x = values[tau + 1]!;
+    if (Number.isFinite(x)) { s += x - mu0; m++; }
+    const score = m > 0 ? (s * s) / m : -Infinity;
+    if (score > bestScore) { bestScore = score; best = tau; }
+  }
+  return best;
 }
 
 /** EWMA + tabular CUSUM drift detection of a series against its baseline, with onset, shift and confidence. */
@@ -189,8 +212,9 @@ export function detectDrift(
   const signal = method === 'cusum' ? ce! : ee!;
   const direction = method === 'cusum' ? cusum.direction! : ewma.ewma[signal]! > baseline.mean ? 'up' : 'down';
   const sums = direction === 'up' ? cusum.sHi : cusum.sLo;
-  let onset = -1;
-  for (let i = signal - 1; i >= 0; i--) if (sums[i] === 0) { onset = i; break; }
+  let lastZero = -1;
+  for (let i = signal - 1; i >= 0; i--) if (sums[i] === 0) { lastZero = i; break; }
+  const onset = changePoint(values, baseline.mean, lastZero, signal);
   let n = 0, s = 0;
   for (let i = onset + 1; i < values.length; i++) if (Number.isFinite(values[i]!)) { n++; s += values[i]!; }
   const shift = n > 0 ? s / n - baseline.mean : Number.NaN;

@@ -95,7 +95,14 @@ export interface PressureConstantFit {
   n: number;
 }
 
-/** OLS of the measured pressure rise on current, Δp = kp·I + offset, when the current varied. */
+/**
+ * OLS of the pump's developed pressure on current, Δp + k_MHD·v = kp·I + offset, when the current varied.
+ * The taps of the pressure channel sit at the ends of the pump section, so the rise they report is the
+ * Lorentz pressure η·Σ I·B/b less the Hartmann (MHD) loss in the pump gaps, k_MHD·v (linear in v, see
+ * mhdPressureLoss). Because the flow follows the current, leaving that loss in would bias kp low by
+ * k_MHD·cov(v, I)/var(I); with `flow_m_s` and `mhdPerVelocity_pa_s_m` it is added back sample by sample
+ * first, so kp/kp_ideal is the pump's effectiveness η. Without them the raw rise is fitted.
+ */
 export function fitPressureConstant(
   current_a: ArrayLike<number>,
   pressure_pa: ArrayLike<number>,
@@ -103,11 +110,13 @@ export function fitPressureConstant(
   from = 0,
   to = current_a.length,
   minSamples = 20,
+  flow_m_s?: ArrayLike<number>,
+  mhdPerVelocity_pa_s_m = 0,
 ): PressureConstantFit | null {
   // straight-line least squares from sums about the first sample (shifted for accuracy)
   let n = 0, i0 = Number.NaN, p0 = 0, sx = 0, sy = 0, sxx = 0, sxy = 0, syy = 0;
   for (let i = from; i < to; i++) {
-    const I = current_a[i]!, p = pressure_pa[i]!;
+    const I = current_a[i]!, p = flow_m_s ? pressure_pa[i]! + mhdPerVelocity_pa_s_m * flow_m_s[i]! : pressure_pa[i]!;
     if (!Number.isFinite(I) || !Number.isFinite(p)) continue;
     if (Number.isNaN(i0)) { i0 = I; p0 = p; }
     const x = I - i0, y = p - p0;
@@ -138,11 +147,14 @@ export function compensateMagnetTemperature(
   return effectiveness / (1 - coeff_per_k * (magnetTemp_c - refTemp_c));
 }
 
+/** Simpson's weights of the three-point mean over ±Δt: outer samples and the centre. */
+const S1 = 1 / 6, S0 = 2 / 3;
+
 /** Series for a torque-constant fit, aligned so that dh/dt = kT·I − τ_loss(v) holds between them. */
 export interface TorqueFitSeries {
-  /** F[(h_{i+1} − h_{i−1})/2Δt + T[τ_loss(v)]_i]: the fluid torque, N·m. */
+  /** F[(h_{i+1} − h_{i−1})/2Δt + M[τ_loss(v)]_i]: the fluid torque, N·m. */
   fluidTorque: Float64Array;
-  /** F[T[I]], F[T[v]], F[T[v|v|]], with T the three-point trapezoid mean (¼, ½, ¼) and F a moving mean. */
+  /** F[M[I]], F[M[v]], F[M[v|v|]], with M the three-point Simpson mean (⅙, ⅔, ⅙) and F a moving mean. */
   current: Float64Array;
   flow: Float64Array;
   flowAbsFlow: Float64Array;
@@ -152,8 +164,13 @@ export interface TorqueFitSeries {
  * Prepares the kT regression so that differentiation cannot bias it. A smoothing derivative filter
  * attenuates fast changes (a quadratic Savitzky–Golay derivative over 2 s loses 8 % at a 7 s period) and
  * would bias kT against unfiltered current. The central difference of h is exactly the mean of dh/dt over
- * ±Δt, so the regressors are averaged over the same ±Δt by the trapezoid rule; the relation then holds
- * sample by sample up to O((ωΔt)⁴). One moving mean F of 2·halfWidth + 1 samples is then applied to every
+ * ±Δt, so the regressors are averaged over the same ±Δt by Simpson's rule, (⅙, ⅔, ⅙): its error in that
+ * mean is O((ωΔt)⁴) (ω⁴Δt⁴/180 at angular frequency ω), where the three-point trapezoid (¼, ½, ¼) errs by
+ * (ωΔt)²/12 and biases kT high by as much (0.2 % for a 4 s line at 10 Hz; Abramowitz & Stegun 1964,
+ * 25.4.5, Simpson's rule, from memory). The same holds for samples that are 100 ms means (integrating
+ * converters): the central difference of means is the mean of dh/dt over a box convolved with a 2Δt box,
+ * and Simpson's weights match the 2Δt box's second moment (Δt²/3) exactly, the trapezoid's do not.
+ * One moving mean F of 2·halfWidth + 1 samples is then applied to every
  * series alike (a linear filter keeps the relation and its coefficients) to cut sensor noise in the
  * regressors, which would otherwise bias kT towards zero (errors in variables). Samples whose filter
  * window leaves the segment are NaN. The residuals are then correlated over the filter length: fit with
@@ -179,7 +196,7 @@ export function torqueFitSeries(
     flowAbsFlow: new Float64Array(n).fill(Number.NaN),
   };
   const len = 2 * halfWidth + 1;
-  const ring = new Float64Array(4 * len); // the last len trapezoid values of the four series
+  const ring = new Float64Array(4 * len); // the last len Simpson values of the four series
   for (const s of segments) {
     const k2 = 1 / (2 * s.dt);
     const from = s.from + 1, to = s.to - 1;
@@ -192,10 +209,10 @@ export function torqueFitSeries(
         if (Number.isFinite(r0 + r1 + r2 + r3)) { s0 -= r0; s1 -= r1; s2 -= r2; s3 -= r3; } else bad--;
       }
       const a = flow_m_s[i - 1]!, b = flow_m_s[i]!, c = flow_m_s[i + 1]!;
-      const r0 = (h[i + 1]! - h[i - 1]!) * k2 + 0.25 * (lossTorque_Nm[i - 1]! + 2 * lossTorque_Nm[i]! + lossTorque_Nm[i + 1]!);
-      const r1 = 0.25 * (current_a[i - 1]! + 2 * current_a[i]! + current_a[i + 1]!);
-      const r2 = 0.25 * (a + 2 * b + c);
-      const r3 = 0.25 * (a * Math.abs(a) + 2 * b * Math.abs(b) + c * Math.abs(c));
+      const r0 = (h[i + 1]! - h[i - 1]!) * k2 + S1 * (lossTorque_Nm[i - 1]! + lossTorque_Nm[i + 1]!) + S0 * lossTorque_Nm[i]!;
+      const r1 = S1 * (current_a[i - 1]! + current_a[i + 1]!) + S0 * current_a[i]!;
+      const r2 = S1 * (a + c) + S0 * b;
+      const r3 = S1 * (a * Math.abs(a) + c * Math.abs(c)) + S0 * b * Math.abs(b);
       ring[slot] = r0; ring[slot + 1] = r1; ring[slot + 2] = r2; ring[slot + 3] = r3;
       if (Number.isFinite(r0 + r1 + r2 + r3)) { s0 += r0; s1 += r1; s2 += r2; s3 += r3; } else bad++;
       if (i - from >= len - 1 && bad === 0) {

@@ -10,8 +10,11 @@ import { ensurePartitionsAhead } from './telemetry-store';
 
 /** Analysis window, s. */
 export const WINDOW_S = 60;
-/** Windows of effectiveness that form a loop's drift baseline (from the sheet's effective date on). */
-export const BASELINE_WINDOWS = 30;
+/**
+ * Windows of effectiveness that form a loop's drift baseline (from the sheet's effective date on).
+ * An hour: with 30 windows the baseline mean alone is off by ~0.2σ, enough for false CUSUM alarms.
+ */
+export const BASELINE_WINDOWS = 60;
 /** Largest span analysed in one piece, s (a long playback is taken in pieces). */
 const CHUNK_S = 2 * 3600;
 

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { baselineStats, cusumChart, detectDrift, erf, ewmaChart } from '../../../src/lib/physics/drift';
+import { baselineStats, changePoint, cusumChart, detectDrift, erf, ewmaChart } from '../../../src/lib/physics/drift';
 import { rng } from './fixtures';
 
 const r2 = (x: number) => Math.round(x * 100) / 100;
@@ -51,6 +51,26 @@ describe('drift detection against a baseline', () => {
     expect(rep.shift!).toBeCloseTo(-0.02, 2);
     expect(rep.shift_sigma!).toBeLessThan(-1.5);
     expect(rep.confidence!).toBeGreaterThan(0.999);
+  });
+
+  it('places the onset of a large step at the step even when the CUSUM had left zero just before it', () => {
+    // baseline N(0, 1); two slightly low observations lift S_lo off zero, then the mean drops by 20σ
+    const v = [0.3, -0.2, 0.1, 0.4, -0.3, 0.2, -0.1, 0.0, -0.9, -0.8, -20.2, -19.7, -20.4, -19.9];
+    const t = v.map((_, i) => 1000 + 60 * i);
+    const c = cusumChart(v, { target: 0, k: 0.5, h: 7 });
+    expect(c.onset).toBe(7); // Page's estimate: the last zero of S_lo, before the two low observations
+    const rep = detectDrift(t, v, { mean: 0, sd: 1, n: Infinity });
+    expect(rep.direction).toBe('down');
+    expect(rep.onsetTime_s).toBe(t[9]); // the last observation before the step
+    // maximum likelihood by brute force over every τ: (Σ_{i>τ} (x_i − μ₀))² / (m − τ) over i ≤ signal
+    const signal = c.firstSignal!;
+    let best = -1, bestScore = -Infinity;
+    for (let tau = c.onset!; tau < signal; tau++) {
+      const tail = v.slice(tau + 1, signal + 1);
+      const score = tail.reduce((s, x) => s + x, 0) ** 2 / tail.length;
+      if (score > bestScore) { bestScore = score; best = tau; }
+    }
+    expect(changePoint(v, 0, c.onset!, signal)).toBe(best);
   });
 
   it('default settings: false-alarm run length of thousands of windows with a known baseline', () => {

@@ -1,7 +1,7 @@
 import type { SheetLoop, SpacecraftSheet } from '../../../src/lib/spacecraft-sheet.schema';
 import { GALINSTAN_DEFAULTS } from '../../../src/lib/spacecraft-sheet.schema';
 import { idealTorqueConstant, idealPressureConstant, backEmf } from '../../../src/lib/physics/pump';
-import { lossTorqueFunction } from '../../../src/lib/physics/friction';
+import { lossTorqueFunction, mhdPressureLoss } from '../../../src/lib/physics/friction';
 import { momentumPerVelocity } from '../../../src/lib/physics/loop-geometry';
 import { eulerRates, rk4Step } from '../../../src/lib/physics/rigid-body';
 import type { SpanInput, BurstInput } from '../../../src/lib/physics/analysis';
@@ -79,7 +79,8 @@ export interface SimOptions {
 
 /**
  * Integrates loop flow (ḣ = kT I − τ_loss), body rates (Euler's equations) and electrode heating with RK4
- * and samples noisy telemetry: the independent truth the analysis must recover.
+ * and samples noisy telemetry: the independent truth the analysis must recover. The pressure rise is the
+ * pump's Lorentz rise less the MHD loss in its gaps, as the telemetry contract's pressure taps see it.
  */
 export function simulateSpan(o: SimOptions): SpanInput {
   const rate = o.rate_hz ?? 10;
@@ -144,7 +145,8 @@ export function simulateSpan(o: SimOptions): SpanInput {
       s.current_a[k] = I + noise.current * r.gauss();
       s.voltage_v[k] = I * R + backEmf(v, loops[i]!) + noise.voltage * r.gauss();
       s.flow_m_s[k] = v + noise.flow * r.gauss();
-      s.pressure_pa[k] = kp[i]! * (1 - 0.001 * (magT(t) - 20)) * I + noise.pressure * r.gauss();
+      // the taps report the Lorentz rise less the Hartmann loss in the pump gaps
+      s.pressure_pa[k] = kp[i]! * (1 - 0.001 * (magT(t) - 20)) * I - lf * mhdPressureLoss(v, loops[i]!) + noise.pressure * r.gauss();
       s.fluidTemp_c[k] = Tenv + 0.5 * (y[3 + L + i]! - Tenv) + noise.temp * r.gauss();
       s.electrodeTemp_c[k] = y[3 + L + i]! + noise.temp * r.gauss();
       s.magnetTemp_c[k] = magT(t) + noise.temp * r.gauss();

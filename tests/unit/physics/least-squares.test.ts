@@ -82,6 +82,22 @@ describe('torque constant fit', () => {
     expect(Math.abs(fit.kp - 95)).toBeLessThan(4 * fit.kpStdErr);
     expect(fit.offset_pa).toBeCloseTo(-40, 0);
   });
+
+  it('pressure constant with the pump gaps’ MHD loss added back: unbiased where the raw rise is not', () => {
+    // the taps see η·kp·I − k_MHD·v; the flow follows the current, so the raw slope is η·kp − k_MHD·dv/dI
+    const r = rng(9);
+    const kMhd = 650, kp = 96;
+    const I = Float64Array.from({ length: 600 }, () => 4 + 3 * r.gauss());
+    const v = Float64Array.from(I, (c) => 0.012 * c + 0.002 * r.gauss());
+    const p = Float64Array.from(I, (c, i) => kp * c - kMhd * v[i]! + 3 * r.gauss());
+    const raw = fitPressureConstant(I, p, 0.5)!;
+    const fixed = fitPressureConstant(I, p, 0.5, 0, I.length, 20, v, kMhd)!;
+    expect(Math.abs(fixed.kp - kp)).toBeLessThan(4 * fixed.kpStdErr);
+    // slope against simple-statistics on the corrected series
+    const ref = linearRegression(Array.from(I, (c, i) => [c, p[i]! + kMhd * v[i]!]));
+    expect(fixed.kp / ref.m).toBeCloseTo(1, 10);
+    expect(raw.kp).toBeLessThan(kp - kMhd * 0.012 * 0.9);
+  });
 });
 
 describe('streaming normal equations', () => {

@@ -54,14 +54,34 @@ describe('torque-constant regression series', () => {
     expect(Math.abs(fit.kT / kT - 1)).toBeLessThan(0.01);
   });
 
-  it('moving mean and trapezoid leave NaN only at segment edges', () => {
+  it('the regressor mean is Simpson’s (⅙, ⅔, ⅙): exact to O((ωΔt)⁴) where the trapezoid errs by (ωΔt)²/12', () => {
+    // dh/dt = kT·I with I = sin ωt sampled at 10 Hz: h = −kT cos(ωt)/ω; the central difference of h is the
+    // mean of dh/dt over ±Δt, kT·I·sin(ωΔt)/(ωΔt), and Simpson's rule gives kT·I·(2 + cos ωΔt)/3 (Simpson's
+    // rule error term, Abramowitz & Stegun 1964, 25.4.5 — from memory)
+    const kT = 1e-4, w = 3.46, dt = 0.1, n = 2000;
+    const t = Float64Array.from({ length: n }, (_, i) => i * dt);
+    const I = Float64Array.from(t, (x) => Math.sin(w * x));
+    const h = Float64Array.from(t, (x) => (-kT * Math.cos(w * x)) / w);
+    const zero = new Float64Array(n);
+    const s = torqueFitSeries(h, I, zero, zero, uniformSegments(t), 10);
+    let sxy = 0, sxx = 0;
+    for (let i = 0; i < n; i++) if (Number.isFinite(s.current[i]!)) { sxy += s.current[i]! * s.fluidTorque[i]!; sxx += s.current[i]! ** 2; }
+    const ratio = sxy / sxx / kT;
+    const x = w * dt;
+    expect(ratio).toBeCloseTo(Math.sin(x) / x / ((2 + Math.cos(x)) / 3), 10);
+    expect(Math.abs(ratio - 1)).toBeLessThan(1.05 * (x ** 4 / 180)); // leading term of the error
+    // the trapezoid would have biased it by about (ωΔt)²/12 = 1 %
+    expect(Math.abs(Math.sin(x) / x / ((1 + Math.cos(x)) / 2) - 1)).toBeGreaterThan(0.009);
+  });
+
+  it('moving mean and Simpson mean leave NaN only at segment edges', () => {
     const d = driven(2e-4, 7);
     const s = torqueFitSeries(d.h, d.cur, d.flow, d.tl, uniformSegments(d.t), 10);
     expect(Number.isNaN(s.current[10])).toBe(true);
     expect(Number.isFinite(s.current[11]!)).toBe(true);
     expect(Number.isFinite(s.current[d.t.length - 12]!)).toBe(true);
     expect(Number.isNaN(s.current[d.t.length - 11])).toBe(true);
-    // a moving mean of the trapezoid of a line is the line
+    // a moving mean of the Simpson mean of a line is the line
     const line = Float64Array.from(d.t, (x) => 3 + 2 * x);
     const s2 = torqueFitSeries(line, line, line, new Float64Array(line.length), uniformSegments(d.t), 10);
     expect(s2.current[500]).toBeCloseTo(line[500]!, 10);
