@@ -2,6 +2,8 @@
 // against COPY of the same decoded rows straight into the same tables.
 // Run with `npm run bench:ingest` (the launcher provides PostgreSQL and DATABASE_URL).
 import fs from 'node:fs';
+import os from 'node:os';
+import path from 'node:path';
 import { spawn } from 'node:child_process';
 import { pipeline } from 'node:stream/promises';
 import { Readable } from 'node:stream';
@@ -96,6 +98,51 @@ await Promise.all(Array.from({ length: CONCURRENCY }, worker));
 const httpS = (performance.now() - t) / 1000;
 clearInterval(sampler);
 peakRss = Math.max(peakRss, rssOf());
+
+// A recorded pass file of UPLOAD_MB through the streaming upload: the server's memory stays flat.
+const UPLOAD_MB = Number(process.env.BENCH_UPLOAD_MB ?? 500);
+const passFile = path.join(os.tmpdir(), `millrace-bench-pass-${process.pid}.bin`);
+{
+  const out = fs.createWriteStream(passFile);
+  let written = 0;
+  let hourStart = startMs + HOURS * 3600_000;
+  while (written < UPLOAD_MB * 1e6) {
+    for (const c of generatePackets({ sheet, scenario, startMs: hourStart, durationMs: 3600_000 })) {
+      if (!out.write(c.slice())) await new Promise<void>((r) => out.once('drain', () => r()));
+      written += c.byteLength;
+    }
+    hourStart += 3600_000;
+  }
+  await new Promise<void>((r) => out.end(() => r()));
+}
+const admin1 = await fetch(`http://127.0.0.1:${PORT}/api/auth/sign-in`, {
+  method: 'POST',
+  headers: { 'content-type': 'application/json' },
+  body: JSON.stringify({ email: 'operator@millrace.test', password: 'bench-only-password' }),
+});
+const cookie = admin1.headers.getSetCookie().map((c) => c.split(';')[0]).join('; ');
+const boundary = `millrace-bench-${Date.now()}`;
+async function* multipart() {
+  yield Buffer.from(`--${boundary}\r\nContent-Disposition: form-data; name="file"; filename="pass.bin"\r\nContent-Type: application/octet-stream\r\n\r\n`);
+  for await (const c of fs.createReadStream(passFile, { highWaterMark: 1 << 20 })) yield c as Buffer;
+  yield Buffer.from(`\r\n--${boundary}--\r\n`);
+}
+const rssBefore = rssOf();
+let uploadPeak = rssBefore;
+const uploadSampler = setInterval(() => (uploadPeak = Math.max(uploadPeak, rssOf())), 50);
+const uploadBytes = fs.statSync(passFile).size;
+t = performance.now();
+const up = await fetch(`http://127.0.0.1:${PORT}/api/uploads/packets?spacecraft=${sc.key}`, {
+  method: 'POST',
+  headers: { cookie, origin: `http://127.0.0.1:${PORT}`, 'content-type': `multipart/form-data; boundary=${boundary}` },
+  body: Readable.toWeb(Readable.from(multipart())) as unknown as BodyInit,
+  duplex: 'half',
+} as RequestInit & { duplex: 'half' });
+const upReport = (await up.json()) as { accepted?: number; bytes?: number };
+const uploadS = (performance.now() - t) / 1000;
+clearInterval(uploadSampler);
+fs.rmSync(passFile, { force: true });
+if (up.status !== 201) throw new Error(`upload answered ${up.status}: ${JSON.stringify(upReport)}`);
 server.kill('SIGTERM');
 
 // The same rows, decoded beforehand, COPY'd straight into the same (emptied) tables.
@@ -134,6 +181,11 @@ const result = {
   copy_rows: copied,
   ratio_http_to_copy: copyS / httpS,
   concurrency: CONCURRENCY,
+  upload_mb: uploadBytes / 1e6,
+  upload_s: uploadS,
+  upload_accepted: upReport.accepted,
+  upload_server_rss_before_mb: rssBefore / 1048576,
+  upload_server_peak_rss_mb: uploadPeak / 1048576,
 };
 fs.mkdirSync('bench-results', { recursive: true });
 fs.writeFileSync('bench-results/ingest.json', JSON.stringify(result, null, 2));
@@ -141,6 +193,10 @@ console.log(
   `[bench:ingest] ${accepted} packets, ${result.megabytes.toFixed(1)} MB through HTTP in ${httpS.toFixed(1)} s ` +
     `(${Math.round(result.packets_per_s)} packets/s, ${result.mb_per_s.toFixed(1)} MB/s; targets ≤ 30 s); server peak RSS ${result.server_peak_rss_mb.toFixed(0)} MB (target ≤ 300); ` +
     `plain COPY of the same rows ${copyS.toFixed(1)} s → ratio ${result.ratio_http_to_copy.toFixed(2)} (target ≥ 0.6)`,
+);
+console.log(
+  `[bench:ingest] streamed upload of a ${result.upload_mb.toFixed(0)} MB pass file: ${upReport.accepted} packets in ${uploadS.toFixed(1)} s; ` +
+    `server RSS ${result.upload_server_rss_before_mb.toFixed(0)} MB before, ${result.upload_server_peak_rss_mb.toFixed(0)} MB peak`,
 );
 await db.destroy();
 const admin = createPool(baseUrl, 1);

@@ -244,11 +244,17 @@ async function findGaps(client: pg.PoolClient, spacecraftId: number, table: stri
   );
   const lo = bounds.rows[0]?.lo ?? minTt;
   const hi = bounds.rows[0]?.hi ?? maxTt;
+  // Packets of one time tag (several loops sampled at once) whose counts straddle the 14-bit wrap
+  // are ordered as if the small counts came after 16383.
   const r = await client.query<{ ptt: number; pseq: number; tt: number; seq: number }>(
     `SELECT ptt, pseq, tt, seq FROM (
-       SELECT time_tag AS tt, seq, lag(time_tag) OVER w AS ptt, lag(seq) OVER w AS pseq
-       FROM ${table} WHERE spacecraft_id = $1 AND time_tag BETWEEN $2 AND $3
-       WINDOW w AS (ORDER BY time_tag, seq)
+       SELECT tt, seq, lag(tt) OVER w AS ptt, lag(seq) OVER w AS pseq FROM (
+         SELECT time_tag AS tt, seq,
+                CASE WHEN max(seq) OVER g - min(seq) OVER g > 8192 AND seq < 8192 THEN seq + 16384 ELSE seq END AS k
+         FROM ${table} WHERE spacecraft_id = $1 AND time_tag BETWEEN $2 AND $3
+         WINDOW g AS (PARTITION BY time_tag)
+       ) y
+       WINDOW w AS (ORDER BY tt, k)
      ) x
      WHERE pseq IS NOT NULL AND ((seq - pseq + 16384) % 16384) > 1 AND tt - ptt <= $4
      ORDER BY tt`,
