@@ -5,6 +5,8 @@ const BENCHES: Record<string, string> = {
   ingest: 'scripts/bench-ingest.ts',
   analysis: 'scripts/bench-analysis.ts',
   passes: 'scripts/bench-passes.ts',
+  live: 'scripts/bench-live.ts',
+  backtest: 'scripts/bench-backtest.ts',
 };
 const wanted = process.argv.slice(2).filter((a) => a in BENCHES);
 let failed = false;
