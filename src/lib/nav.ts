@@ -12,5 +12,10 @@ export const NAV: { href: string; label: string; access: Access }[] = [
   { href: '/admin/outbox', label: 'Outbox', access: ['admin'] },
   { href: '/mailbox', label: 'Mailbox', access: ['admin'] },
   { href: '/passes', label: 'Passes', access: 'signed-in' },
+  { href: '/pass-watch', label: 'Pass watch', access: ['operator', 'analyst', 'engineer', 'admin'] },
   { href: '/stations', label: 'Stations', access: 'signed-in' },
+  { href: '/limits', label: 'Limit bench', access: ['engineer', 'admin'] },
+  { href: '/admin/audit', label: 'Audit log', access: ['admin'] },
+  { href: '/docs/api', label: 'API', access: 'signed-in' },
+  { href: '/account', label: 'Account', access: 'signed-in' },
 ];

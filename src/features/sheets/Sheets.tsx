@@ -1,10 +1,12 @@
-import { useState } from 'react';
+import { useMemo, useState } from 'react';
 import { QueryClientProvider, useQuery } from '@tanstack/react-query';
 import { getQueryClient } from '../../lib/query-client';
 import { sheetInForce, sheetsQuery, type SheetRow, type SheetsResponse } from './sheets.queries';
 import { SheetView, canonicalSheet } from './SheetView';
 import { SheetUpload } from './SheetUpload';
 import { utcText } from '../link/format';
+import { diffSummary, sheetHistoryDiffs } from '../../lib/sheet-diff';
+import { SheetDiffView } from './SheetDiff';
 
 interface Props {
   spacecraft: { key: string; name: string };
@@ -12,6 +14,8 @@ interface Props {
   canUpload: boolean;
   /** The server's clock at render (ISO), so "in force" reads the same before and after hydration. */
   now: string;
+  /** A change of a loop's ideal torque constant beyond this fraction is called out (the upload's rule). */
+  ktWarningFraction: number;
 }
 
 function stateOf(row: SheetRow, inForce: SheetRow | undefined, now: string): string {
@@ -19,13 +23,15 @@ function stateOf(row: SheetRow, inForce: SheetRow | undefined, now: string): str
   return row.effective_from > now ? 'planned' : 'superseded';
 }
 
-function SheetsPanels({ spacecraft, initial, canUpload, now }: Props) {
+function SheetsPanels({ spacecraft, initial, canUpload, now, ktWarningFraction }: Props) {
   const q = useQuery({ ...sheetsQuery(spacecraft.key), initialData: initial });
   const sheets = q.data.sheets;
   const inForce = sheetInForce(sheets, now);
   const [selectedId, setSelectedId] = useState<number | null>(inForce?.id ?? null);
   const [seed, setSeed] = useState<{ text: string; n: number } | null>(null);
   const selected = sheets.find((s) => s.id === selectedId) ?? inForce;
+  const history = useMemo(() => sheetHistoryDiffs(sheets, { ktWarningFraction }), [sheets, ktWarningFraction]);
+  const selectedHistory = selected ? history.get(selected.id) : undefined;
 
   const startFrom = (row: SheetRow) => {
     setSeed((s) => ({ text: JSON.stringify(canonicalSheet(row.sheet), null, 2), n: (s?.n ?? 0) + 1 }));
@@ -42,7 +48,7 @@ function SheetsPanels({ spacecraft, initial, canUpload, now }: Props) {
           </button>
         </div>
       )}
-      <div className="grid items-start gap-5 xl:grid-cols-[24rem_1fr]">
+      <div className="grid items-start gap-5 xl:grid-cols-[30rem_1fr]">
         <section className="panel" aria-labelledby="history-h">
           <header className="border-b border-rule px-4 py-3">
             <h2 id="history-h">Sheet history</h2>
@@ -61,6 +67,7 @@ function SheetsPanels({ spacecraft, initial, canUpload, now }: Props) {
                   <th>Effective from (UTC)</th>
                   <th>Uploaded</th>
                   <th>State</th>
+                  <th>Change</th>
                 </tr>
               </thead>
               <tbody>
@@ -85,6 +92,15 @@ function SheetsPanels({ spacecraft, initial, canUpload, now }: Props) {
                       <td className={`text-xs ${stateOf(s, inForce, now) === 'in force' ? 'font-medium text-nominal' : 'text-muted'}`}>
                         {stateOf(s, inForce, now)}
                       </td>
+                      <td className="text-xs">
+                        {diffSummary(history.get(s.id)?.diff ?? null)}
+                        {(history.get(s.id)?.diff?.idealKtShifts ?? []).map((k) => (
+                          <div key={k.loopId} className="font-semibold text-caution">
+                            <span aria-hidden="true">▲ </span>L{k.loopId} ideal kT {k.change > 0 ? '+' : '−'}
+                            {Math.abs(k.change * 100).toFixed(1)} %
+                          </div>
+                        ))}
+                      </td>
                     </tr>
                   );
                 })}
@@ -95,6 +111,7 @@ function SheetsPanels({ spacecraft, initial, canUpload, now }: Props) {
         <div className="space-y-2">
           {selected ? (
             <>
+              <SheetDiffView diff={selectedHistory?.diff ?? null} previousFrom={selectedHistory?.previous?.effective_from ?? null} fraction={ktWarningFraction} />
               <SheetView row={selected} state={stateOf(selected, inForce, now)} />
               {canUpload && (
                 <button type="button" className="btn" onClick={() => startFrom(selected)}>

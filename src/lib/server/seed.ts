@@ -17,11 +17,19 @@ export const DEMO_USERS: { email: string; name: string; roles: Role[] }[] = [
   { email: 'admin@millrace.test', name: 'Sana Kowalczyk', roles: ['admin'] },
 ];
 
-/** Invented ground stations at plausible latitudes. */
+/**
+ * Invented ground stations at plausible latitudes. The last three (all invented too) keep the demo
+ * lively: a high-latitude site near 78° N sees a polar orbit nearly every revolution, and two
+ * mid-latitude sites in the Americas and East Asia cover the 53° orbit, so that each demo spacecraft
+ * has a pass about once an hour on average (one every 55–71 min over three days).
+ */
 export const DEMO_STATIONS = [
   { key: 'north-fell', name: 'North Fell', latitude_deg: 67.88, longitude_deg: 21.07, altitude_m: 380, elevation_mask_deg: 5 },
   { key: 'ribeira', name: 'Ribeira', latitude_deg: 41.15, longitude_deg: -8.61, altitude_m: 90, elevation_mask_deg: 10 },
   { key: 'karoo-ridge', name: 'Karoo Ridge', latitude_deg: -31.52, longitude_deg: 21.93, altitude_m: 1210, elevation_mask_deg: 10 },
+  { key: 'isbre-point', name: 'Isbre Point', latitude_deg: 78.2, longitude_deg: 15.6, altitude_m: 450, elevation_mask_deg: 5 },
+  { key: 'high-mesa', name: 'High Mesa', latitude_deg: 39.7, longitude_deg: -104.9, altitude_m: 1620, elevation_mask_deg: 10 },
+  { key: 'kita-cape', name: 'Kita Cape', latitude_deg: 43.06, longitude_deg: 141.35, altitude_m: 20, elevation_mask_deg: 10 },
 ];
 
 /** The demo fleet's sheets, from ingest/fleet/*.json (the same files the simulated feed flies). */

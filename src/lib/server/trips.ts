@@ -78,13 +78,18 @@ export async function acknowledgeTrip(db: Kysely<Database>, id: number, user: Se
   });
 }
 
-/** Resolve an acknowledged trip with its conclusion, under the resolve rule. */
-export async function resolveTrip(db: Kysely<Database>, id: number, user: SessionUser, resolution: string) {
+/**
+ * Resolve an acknowledged trip with its conclusion, under the resolve rule. The conclusion may be
+ * supplied by a function run inside the transaction once the rule and state are checked (the
+ * Casefile's saved conclusion).
+ */
+export async function resolveTrip(db: Kysely<Database>, id: number, user: SessionUser, conclusion: string | ((trx: Transaction<Database>) => Promise<string>)) {
   return db.transaction().execute(async (trx) => {
     const t = await lockTrip(trx, id);
     if (!mayResolve(user.roles, t.kind)) throw new HttpError('FORBIDDEN', `Your roles may not resolve a ${t.kind} trip. ${RESOLVE_RULE}`);
     if (t.state === 'resolved') throw new HttpError('CONFLICT', `Trip ${id} is already resolved.`);
     if (t.state === 'open') throw new HttpError('CONFLICT', `Acknowledge trip ${id} before resolving it.`);
+    const resolution = typeof conclusion === 'string' ? conclusion : await conclusion(trx);
     await trx.updateTable('trip').set({ state: 'resolved', resolved_by: user.id, resolved_at: new Date(), resolution }).where('id', '=', id).execute();
     await insertAuditEntry(trx, { actorId: user.id, action: 'trip.resolve', targetType: 'trip', targetId: id, detail: { resolution } });
     return findTrip(trx, id);

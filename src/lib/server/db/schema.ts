@@ -70,7 +70,7 @@ export interface AuditLogTable {
   detail: ColumnType<unknown, string | undefined, never>;
 }
 
-export interface Database extends TelemetryTables, AnalysisTables, MailTables {
+export interface Database extends TelemetryTables, AnalysisTables, MailTables, PassTables, PassLogTables, AdminTables, BenchTables, CasefileTables {
   app_user: AppUserTable;
   user_role: UserRoleTable;
   user_session: UserSessionTable;
@@ -415,4 +415,163 @@ export interface MailTables {
   outbox: OutboxTable;
   on_call_shift: OnCallShiftTable;
   mail_digest_item: MailDigestItemTable;
+}
+
+export interface PredictedPassTable {
+  id: Generated<number>;
+  spacecraft_id: number;
+  station_id: number;
+  /** The sheet whose element set predicted the pass (the one in force at AOS). */
+  sheet_id: number | null;
+  aos_at: Timestamp;
+  tca_at: Timestamp;
+  los_at: Timestamp;
+  max_elevation_deg: number;
+  aos_azimuth_deg: number;
+  los_azimuth_deg: number;
+  computed_at: ColumnType<Date, Date | string | undefined, Date | string>;
+}
+
+export interface PassHorizonTable {
+  spacecraft_id: number;
+  computed_at: Timestamp;
+  /** Passes are stored up to here. */
+  horizon_to: Timestamp;
+  /** Digest of the stations and sheets the passes were computed from. */
+  inputs: string;
+}
+
+export interface PassTables {
+  predicted_pass: PredictedPassTable;
+  pass_horizon: PassHorizonTable;
+}
+
+export interface LiveCounterTable {
+  spacecraft_id: number;
+  seq: number;
+}
+
+/** One stored ingest batch with its per-spacecraft event number, in commit order. */
+export interface LiveBatchTable {
+  spacecraft_id: number;
+  seq: number;
+  batch_id: number;
+}
+
+/** An operator's handover note on one pass. */
+export interface PassNoteTable {
+  id: Generated<number>;
+  spacecraft_id: number;
+  station_id: number;
+  aos_at: Timestamp;
+  los_at: Timestamp;
+  note: string;
+  author_id: string | null;
+  created_at: CreatedAt;
+}
+
+export interface PassLogTables {
+  live_counter: LiveCounterTable;
+  live_batch: LiveBatchTable;
+  pass_note: PassNoteTable;
+}
+
+/** A one-time link: an invitation or a password reset (the token's SHA-256 digest only). */
+export interface UserTokenTable {
+  id: Generated<number>;
+  user_id: string;
+  purpose: 'invite' | 'reset';
+  token_hash: string;
+  created_by: string | null;
+  created_at: ColumnType<Date, Date | string | undefined, Date | string>;
+  expires_at: Timestamp;
+  used_at: Timestamp | null;
+}
+
+/** Password-reset requests per window, by the address asked for and by the client's address. */
+export interface PasswordResetAttemptTable {
+  scope: 'email' | 'address';
+  key: string;
+  window_start: Timestamp;
+  requests: Generated<number>;
+}
+
+export interface AdminTables {
+  user_token: UserTokenTable;
+  password_reset_attempt: PasswordResetAttemptTable;
+}
+
+export type BacktestStatus = 'queued' | 'running' | 'done' | 'cancelled' | 'failed';
+
+/** A backtest of a limit set over stored history: a background job with progress and a kept result. */
+export interface BacktestTable {
+  id: Generated<number>;
+  limit_set_id: number;
+  /** The set it is compared with (the active one when it was asked for), if any. */
+  baseline_set_id: number | null;
+  spacecraft_id: number;
+  from_at: Timestamp;
+  to_at: Timestamp;
+  /** Digest of the rules replayed (a result older than the draft's last edit says so). */
+  rules_digest: string;
+  status: Generated<BacktestStatus>;
+  progress: Generated<number>;
+  /** The replay's trips, rule summaries and chart series (see BacktestResult). */
+  result: ColumnType<unknown, string | null | undefined, string | null>;
+  error: string | null;
+  requested_by: string | null;
+  created_at: CreatedAt;
+  started_at: Timestamp | null;
+  finished_at: Timestamp | null;
+}
+
+/** One step of a limit set's review: submitted, approved, or returned with comments. */
+export interface LimitSetReviewTable {
+  id: Generated<number>;
+  limit_set_id: number;
+  action: 'submitted' | 'approved' | 'returned';
+  actor_id: string | null;
+  comment: Generated<string>;
+  at: CreatedAt;
+}
+
+export interface BenchTables {
+  backtest: BacktestTable;
+  limit_set_review: LimitSetReviewTable;
+}
+
+/** The saved conclusion of a trip's Casefile (the resolve action requires one). */
+export interface CasefileTable {
+  trip_id: number;
+  conclusion: string;
+  updated_by: string | null;
+  updated_at: ColumnType<Date, Date | string | undefined, Date | string>;
+}
+
+/** A note in a trip's Casefile thread. */
+export interface TripNoteTable {
+  id: Generated<number>;
+  trip_id: number;
+  author_id: string | null;
+  body: string;
+  created_at: CreatedAt;
+}
+
+/** A file attached to a Casefile note, stored under UPLOAD_DIR/attachments. */
+export interface TripAttachmentTable {
+  id: Generated<number>;
+  trip_id: number;
+  note_id: number;
+  file_name: string;
+  media_type: 'image/png' | 'image/jpeg' | 'text/csv' | 'application/pdf';
+  bytes: number;
+  sha256: string;
+  stored_path: string;
+  created_at: CreatedAt;
+}
+
+export interface CasefileTables {
+  casefile: CasefileTable;
+  trip_note: TripNoteTable;
+  trip_attachment: TripAttachmentTable;
 }
