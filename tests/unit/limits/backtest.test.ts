@@ -58,8 +58,8 @@ describe('replayLimitSets', () => {
   });
 
   it('replays every window exactly once across chunks, and finds the same trips as one pass of evaluateRule', async () => {
-    // Three weeks of windows (several 7-day chunks), with a sag at a known place and noise-free elsewhere.
-    const n = 21 * 1440;
+    // Seventy days of windows (several 30-day chunks), with a sag at a known place and noise-free elsewhere.
+    const n = 70 * 1440;
     const vals = Array.from({ length: n }, (_, i) => (i >= 15_000 && i < 15_003 ? 0.55 : i >= 15_003 && i < 15_010 ? 0.4 : i % 997 === 0 ? null : 0.7 - ((i * 7919) % 8) * 0.01));
     const low = rule('effectiveness', null, { cautionLow: 0.6, warningLow: 0.5, clearLow: 0.62, persistence: 3 });
     const calls: string[] = [];
