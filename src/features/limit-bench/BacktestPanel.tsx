@@ -37,59 +37,78 @@ function ruleFor(result: BacktestResult, role: 'draft' | 'baseline', quantity: s
   return r ? r.levels : null;
 }
 
-function TripsTable({ result, trips, unitOf }: { result: BacktestResult; trips: BacktestTrip[]; unitOf: (q: string) => string }) {
+const PAGE = 25;
+
+function TripsTable({ result, trips, unitOf, scopeLabel }: { result: BacktestResult; trips: BacktestTrip[]; unitOf: (q: string) => string; scopeLabel: string }) {
+  const [page, setPage] = useState(0);
   const labelOf = (q: string) => result.rules.find((r) => r.quantity === q)?.label ?? q;
-  if (!trips.length) return <p className="p-3 text-muted">Neither set would have raised a trip over this span.</p>;
+  const pages = Math.max(1, Math.ceil(trips.length / PAGE));
+  const at = Math.min(page, pages - 1);
+  if (!trips.length) return <p className="p-3 text-muted">Neither set would have raised a trip {scopeLabel} over this span.</p>;
+  const shown = trips.slice(at * PAGE, at * PAGE + PAGE);
   return (
-    <table className="table-compact" aria-label="Backtest trips">
-      <thead>
-        <tr>
-          <th>Set</th>
-          <th>Quantity</th>
-          <th>Loop</th>
-          <th>Level</th>
-          <th>Onset (UTC)</th>
-          <th>Raised (UTC)</th>
-          <th>Cleared (UTC)</th>
-          <th className="n">Value at raise</th>
-          <th className="n">Peak</th>
-          <th className="n">Limit</th>
-          <th className="n">Persistence</th>
-          <th className="n">Lasted</th>
-        </tr>
-      </thead>
-      <tbody>
-        {trips.map((t, i) => {
-          const unit = unitOf(t.quantity);
-          return (
-            <tr key={i}>
-              <td className={t.set === 'draft' ? 'font-medium' : 'text-muted'}>{setLabel(t.set === 'draft' ? result.draft : result.baseline!, t.set)}</td>
-              <td>{labelOf(t.quantity)}</td>
-              <td className="num">{t.loopId === null ? '—' : `L${t.loopId}`}</td>
-              <td>
-                <LevelBadge level={t.level} />
-              </td>
-              <td className="num">{formatUtc(t.onsetMs)}</td>
-              <td className="num">{formatUtc(t.raisedMs)}</td>
-              <td className="num">{t.clearedMs === null ? <span className="font-medium text-copper">persists at end</span> : formatUtc(t.clearedMs)}</td>
-              <td className="n">
-                {formatValue(t.value)} <span className="unit">{unit}</span>
-              </td>
-              <td className="n">
-                {formatValue(t.peak)} <span className="unit">{unit}</span>
-              </td>
-              <td className="n">
-                {t.side === 'high' ? '≥' : '≤'} {formatValue(t.limit)} <span className="unit">{unit}</span>
-              </td>
-              <td className="n">
-                {t.persistence} <span className="unit">points</span>
-              </td>
-              <td className="n">{lasted((t.clearedMs ?? result.toMs) - t.onsetMs)}</td>
-            </tr>
-          );
-        })}
-      </tbody>
-    </table>
+    <>
+      <table className="table-compact" aria-label="Backtest trips">
+        <thead>
+          <tr>
+            <th>Set</th>
+            <th>Quantity</th>
+            <th>Loop</th>
+            <th>Level</th>
+            <th>Onset (UTC)</th>
+            <th className="n">Raised after</th>
+            <th>Cleared (UTC)</th>
+            <th className="n">Value at raise</th>
+            <th className="n">Peak</th>
+            <th className="n">Limit</th>
+            <th className="n">Persistence</th>
+            <th className="n">Lasted</th>
+          </tr>
+        </thead>
+        <tbody>
+          {shown.map((t) => {
+            const unit = unitOf(t.quantity);
+            return (
+              <tr key={`${t.set}-${t.ruleIndex}-${t.loopId}-${t.onsetMs}`}>
+                <td className={`whitespace-nowrap ${t.set === 'draft' ? 'font-medium' : 'text-muted'}`}>{setLabel(t.set === 'draft' ? result.draft : result.baseline!, t.set)}</td>
+                <td>{labelOf(t.quantity)}</td>
+                <td className="num">{t.loopId === null ? '—' : `L${t.loopId}`}</td>
+                <td>
+                  <LevelBadge level={t.level} />
+                </td>
+                <td className="num whitespace-nowrap">{formatUtc(t.onsetMs)}</td>
+                <td className="n whitespace-nowrap">+{lasted(t.raisedMs - t.onsetMs)}</td>
+                <td className="num whitespace-nowrap">{t.clearedMs === null ? <span className="font-medium text-copper">persists at end</span> : formatUtc(t.clearedMs)}</td>
+                <td className="n whitespace-nowrap">
+                  {formatValue(t.value)} <span className="unit">{unit}</span>
+                </td>
+                <td className="n whitespace-nowrap">
+                  {formatValue(t.peak)} <span className="unit">{unit}</span>
+                </td>
+                <td className="n whitespace-nowrap">
+                  {t.side === 'high' ? '≥' : '≤'} {formatValue(t.limit)} <span className="unit">{unit}</span>
+                </td>
+                <td className="n whitespace-nowrap">
+                  {t.persistence} <span className="unit">points</span>
+                </td>
+                <td className="n whitespace-nowrap">{lasted((t.clearedMs ?? result.toMs) - t.onsetMs)}</td>
+              </tr>
+            );
+          })}
+        </tbody>
+      </table>
+      <div className="flex items-center gap-2 border-t border-rule px-2 py-1.5 text-xs">
+        <button type="button" className="btn h-7 px-2 text-xs" disabled={at === 0} onClick={() => setPage(at - 1)}>
+          Previous
+        </button>
+        <span className="num text-muted">
+          trips {at * PAGE + 1}–{at * PAGE + shown.length} of {trips.length}
+        </span>
+        <button type="button" className="btn h-7 px-2 text-xs" disabled={at >= pages - 1} onClick={() => setPage(at + 1)}>
+          Next
+        </button>
+      </div>
+    </>
   );
 }
 
@@ -98,8 +117,13 @@ function Results({ result }: { result: BacktestResult }) {
   const draftTrips = result.trips.filter((t) => t.set === 'draft');
   const baseTrips = result.trips.filter((t) => t.set === 'baseline');
   const chartable = result.series.filter((s) => s.points > 0);
-  const tripped = chartable.find((s) => result.trips.some((t) => t.quantity === s.quantity && t.loopId === s.loopId));
-  const [chosen, setChosen] = useState<string>(() => (tripped ?? chartable[0]) ? `${(tripped ?? chartable[0])!.quantity}|${(tripped ?? chartable[0])!.loopId}` : '');
+  // First on the chart: the series of the draft's first limit that trips, else the first series.
+  const first =
+    result.rules
+      .filter((r) => r.set === 'draft')
+      .flatMap((r) => chartable.filter((s) => s.quantity === r.quantity && draftTrips.some((t) => t.quantity === s.quantity && t.loopId === s.loopId)))[0] ?? chartable[0];
+  const [chosen, setChosen] = useState<string>(() => (first ? `${first.quantity}|${first.loopId}` : ''));
+  const [onlyCharted, setOnlyCharted] = useState(false);
   const series = chartable.find((s) => `${s.quantity}|${s.loopId}` === chosen) ?? chartable[0];
   const onChart = useMemo(() => {
     const mine = (t: BacktestTrip) => series !== undefined && t.quantity === series.quantity && t.loopId === series.loopId;
@@ -199,9 +223,25 @@ function Results({ result }: { result: BacktestResult }) {
         <p className="panel p-3 text-muted">No stored points fall in this span for any limit of the set: choose a span the database holds data for.</p>
       )}
 
-      <div className="panel overflow-x-auto">
-        <TripsTable result={result} trips={result.trips} unitOf={unitOf} />
-      </div>
+      <section className="panel overflow-x-auto" aria-label="Trips the sets would have raised">
+        <div className="flex flex-wrap items-center gap-3 border-b border-rule px-3 py-2">
+          <h3 className="text-sm font-semibold">Trips</h3>
+          {series && (
+            <label className="flex items-center gap-1.5 text-xs">
+              <input type="checkbox" checked={onlyCharted} onChange={(e) => setOnlyCharted(e.target.checked)} />
+              only {series.label}
+              {series.loopId === null ? '' : ` on L${series.loopId}`}
+            </label>
+          )}
+        </div>
+        <TripsTable
+          key={onlyCharted ? chosen : 'all'}
+          result={result}
+          trips={onlyCharted && series ? result.trips.filter((t) => t.quantity === series.quantity && t.loopId === series.loopId) : result.trips}
+          unitOf={unitOf}
+          scopeLabel={onlyCharted && series ? `on ${series.label}` : ''}
+        />
+      </section>
     </div>
   );
 }

@@ -83,7 +83,7 @@ function RuleRow({
   const described = (f: keyof LimitRuleInput) => (errors?.[f] ? { 'aria-invalid': true as const, 'aria-describedby': id(`${f}-error`) } : {});
   return (
     <li className="rounded border border-rule/70 p-2" aria-label={`Limit ${n}`}>
-      <div className="grid grid-cols-2 gap-2 md:grid-cols-6 xl:grid-cols-[minmax(14rem,2fr)_7rem_repeat(6,minmax(5.5rem,1fr))_5.5rem_auto]">
+      <div className="grid grid-cols-2 gap-2 md:grid-cols-6 xl:grid-cols-[minmax(10rem,2fr)_6.5rem_repeat(6,minmax(4.25rem,1fr))_4.75rem_auto]">
         <div className="col-span-2 md:col-span-3 xl:col-span-1">
           <label className="label" htmlFor={id('quantity')}>
             Quantity
@@ -123,7 +123,7 @@ function RuleRow({
         </div>
         {LEVELS.map(([f, label, kind]) => (
           <div key={f}>
-            <label className="label" htmlFor={id(f)}>
+            <label className="label truncate" htmlFor={id(f)} title={info?.unit ? `${label} (${info.unit})` : label}>
               <span className={kind === 'warning' ? 'text-warning' : kind === 'caution' ? 'text-caution' : ''}>{label}</span>
               {info?.unit ? <span className="unit"> {info.unit}</span> : null}
             </label>
@@ -141,8 +141,8 @@ function RuleRow({
           </div>
         ))}
         <div>
-          <label className="label" htmlFor={id('persistence')}>
-            Persistence <span className="unit">points</span>
+          <label className="label truncate" htmlFor={id('persistence')} title="Persistence, consecutive points">
+            Persistence
           </label>
           <input
             id={id('persistence')}

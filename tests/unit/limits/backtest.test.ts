@@ -58,9 +58,11 @@ describe('replayLimitSets', () => {
   });
 
   it('replays every window exactly once across chunks, and finds the same trips as one pass of evaluateRule', async () => {
-    // Seventy days of windows (several 30-day chunks), with a sag at a known place and noise-free elsewhere.
-    const n = 70 * 1440;
-    const vals = Array.from({ length: n }, (_, i) => (i >= 15_000 && i < 15_003 ? 0.55 : i >= 15_003 && i < 15_010 ? 0.4 : i % 997 === 0 ? null : 0.7 - ((i * 7919) % 8) * 0.01));
+    // 65 days of windows (three 30-day reads), with a sag that straddles the first read's end: the
+    // run starts in one read and raises in the next, so the rule state must carry over.
+    const n = 65 * 1440;
+    const s0 = 43_197;
+    const vals = Array.from({ length: n }, (_, i) => (i >= s0 && i < s0 + 3 ? 0.55 : i >= s0 + 3 && i < s0 + 10 ? 0.4 : i % 997 === 0 ? null : 0.7 - ((i * 7919) % 8) * 0.01));
     const low = rule('effectiveness', null, { cautionLow: 0.6, warningLow: 0.5, clearLow: 0.62, persistence: 3 });
     const calls: string[] = [];
     const r = (await replayLimitSets({ load: windowLoader({ 0: vals, 2: vals }, calls), loopIds: [0, 2], fromMs: T0 - MIN, toMs: T0 + n * MIN, draft: { ref: ref(1, 2), rules: [low] }, baseline: null }))!;
@@ -71,12 +73,16 @@ describe('replayLimitSets', () => {
     expect(r.trips.map((t) => t.loopId)).toEqual([0, 2]);
     for (const t of r.trips) {
       expect(t).toMatchObject({ onsetMs: one[0]!.trip.onsetT, raisedMs: one[0]!.t, escalatedMs: one[1]!.t, clearedMs: one[2]!.t, level: 'warning', peak: 0.4 });
-      // By hand: the sag starts at window 15 000, the third point beyond caution raises it, the third beyond warning escalates it.
-      expect(t.onsetMs).toBe(T0 + 15_000 * MIN);
-      expect(t.raisedMs).toBe(T0 + 15_002 * MIN);
-      expect(t.escalatedMs).toBe(T0 + 15_005 * MIN);
-      expect(t.clearedMs).toBe(T0 + 15_010 * MIN);
+      // By hand: the sag starts at window s0, the third point beyond caution raises it, the third beyond warning escalates it.
+      expect(t.onsetMs).toBe(T0 + s0 * MIN);
+      expect(t.raisedMs).toBe(T0 + (s0 + 2) * MIN);
+      expect(t.escalatedMs).toBe(T0 + (s0 + 5) * MIN);
+      expect(t.clearedMs).toBe(T0 + (s0 + 10) * MIN);
     }
+    // The first read ends inside the run that raised the trip.
+    const firstEnd = Number(calls.find((c) => c.startsWith('effectiveness|0|'))!.split('|')[3]);
+    expect(firstEnd).toBeGreaterThan(T0 + s0 * MIN);
+    expect(firstEnd).toBeLessThan(T0 + (s0 + 3) * MIN);
     expect(calls.filter((c) => c.startsWith('effectiveness|0|')).length).toBeGreaterThan(2);
   });
 
