@@ -14,6 +14,9 @@ import { runAnalysisJob } from '../../src/lib/server/analysis-job';
 import { tripMailHandler } from '../../src/lib/server/trip-mail';
 
 let counter = 0;
+const lastEnd = new Map<number, number>();
+/** Run the job as if just after the flight's last sample (data age during a predicted pass then stays small). */
+const job = (sc: { id: number; key: string }, opts: Parameters<typeof runAnalysisJob>[3] = {}) => runAnalysisJob(db, pool, sc, { nowMs: (lastEnd.get(sc.id) ?? Date.now()) + 5_000, ...opts });
 const sheetOf = (file: string, key: string): SpacecraftSheet => {
   const s = spacecraftSheetSchema.parse(JSON.parse(fs.readFileSync(`ingest/fleet/${file}.json`, 'utf8')));
   return { ...s, spacecraft: { key, name: `Test ${key}` } };
@@ -34,6 +37,7 @@ async function fly(file: string, scenarioName: string | object, minutes: number,
   for (const chunk of generatePackets({ sheet, scenario, startMs, durationMs: minutes * 60_000, chunkBytes: 4 << 20 })) {
     await ingestBody(pool, db, chunk.slice(), { spacecraftId: sc.id, stationId: null, tokenId: null }, endMs + 5_000);
   }
+  lastEnd.set(sc.id, endMs);
   return { sc: { id: sc.id, key }, startMs, endMs, scenario };
 }
 
@@ -50,7 +54,7 @@ async function windowHash(spacecraftId: number) {
 describe('scheduled analysis raises the expected trips from injected faults', () => {
   it('a torque-constant loss on loop 0 raises a torque-constant-drift trip on loop 0 within minutes of the ramp', async () => {
     const { sc, startMs, scenario } = await fly('MR-1', 'torque-constant-loss', 25);
-    const s = await runAnalysisJob(db, pool, sc, { onTripChange: tripMailHandler });
+    const s = await job(sc, { onTripChange: tripMailHandler });
     expect(s.status).toBe('done');
     const trips = await tripsOf(sc.id);
     const drift = trips.filter((t) => t.kind === 'torque-constant-drift');
@@ -71,7 +75,7 @@ describe('scheduled analysis raises the expected trips from injected faults', ()
 
   it('a pulsation raises a flow-pulsation trip on the loop', async () => {
     const { sc } = await fly('MR-1', 'pulsation', 20);
-    await runAnalysisJob(db, pool, sc);
+    await job(sc);
     const trips = await tripsOf(sc.id);
     expect(trips.map((t) => `${t.kind}:${t.loop_id}`)).toEqual(['flow-pulsation:0']);
   });
@@ -89,8 +93,8 @@ describe('scheduled analysis raises the expected trips from injected faults', ()
     const endMs = Date.UTC(2026, 11, 2, 0, 20);
     const a = await fly('MR-1', degraded, 40, { rules, endMs });
     const b = await fly('MR-1', healthy, 40, { rules, endMs });
-    await runAnalysisJob(db, pool, a.sc);
-    await runAnalysisJob(db, pool, b.sc);
+    await job(a.sc);
+    await job(b.sc);
     const trips = await tripsOf(a.sc.id);
     expect(trips.map((t) => `${t.kind}:${t.loop_id}`)).toEqual(['temperature-rise:0']);
     expect(trips[0]!.onset_at.getTime()).toBeGreaterThan(a.startMs + 600_000);
@@ -100,7 +104,7 @@ describe('scheduled analysis raises the expected trips from injected faults', ()
   it('a sequence gap raises a telemetry-gap trip that clears when data flows again', async () => {
     // 30 s of loop housekeeping lost on the link: 300 packets, beyond the 200-packet warning.
     const { sc } = await fly('MR-1', { name: 'long-gap', seed: 26, faults: [{ kind: 'sequence-gap', apid: 32, start_s: 120, count: 300 }] }, 15);
-    await runAnalysisJob(db, pool, sc);
+    await job(sc);
     const trips = await tripsOf(sc.id);
     expect(trips.map((t) => t.kind)).toEqual(['telemetry-gap']);
     expect(trips[0]!.loop_id).toBeNull();
@@ -110,37 +114,37 @@ describe('scheduled analysis raises the expected trips from injected faults', ()
   it('a healthy spacecraft over three hours raises no trip', async () => {
     // A fixed, seeded stretch of orbit so the run is repeatable.
     const { sc } = await fly('MR-3', 'healthy', 180, { endMs: Date.UTC(2026, 11, 1, 21, 0) });
-    const s = await runAnalysisJob(db, pool, sc);
+    const s = await job(sc);
     expect(s.windows).toBeGreaterThan(170 * 4);
     expect(await tripsOf(sc.id)).toEqual([]);
   }, 240_000);
 
   it('a re-run changes nothing, and two schedulers at once do the work once', async () => {
     const { sc } = await fly('MR-1', 'torque-constant-loss', 15);
-    const [a, b] = await Promise.all([runAnalysisJob(db, pool, sc), runAnalysisJob(db, pool, sc)]);
+    const [a, b] = await Promise.all([job(sc), job(sc)]);
     expect([a.status, b.status].sort()).toEqual(['busy', 'done']);
     const trips = await tripsOf(sc.id);
     const hash = await windowHash(sc.id);
-    const again = await runAnalysisJob(db, pool, sc);
+    const again = await job(sc);
     expect(again).toMatchObject({ status: 'done', batches: 0, windows: 0 });
     expect(await tripsOf(sc.id)).toEqual(trips);
     expect(await windowHash(sc.id)).toEqual(hash);
     // Forcing a re-analysis of the same data writes the same values.
     await db.deleteFrom('analysis_cursor').where('spacecraft_id', '=', sc.id).execute();
-    await runAnalysisJob(db, pool, sc);
+    await job(sc);
     expect(await windowHash(sc.id)).toEqual(hash);
     expect(await tripsOf(sc.id)).toEqual(trips);
   });
 
   it('late playback inside analysed time re-analyses exactly the windows it touches', async () => {
     const { sc, startMs } = await fly('MR-1', 'healthy', 10);
-    await runAnalysisJob(db, pool, sc);
+    await job(sc);
     const before = await db.selectFrom('loop_window').select(['window_start', 'analysed_at']).where('spacecraft_id', '=', sc.id).orderBy('window_start').execute();
     // A playback of two minutes earlier than everything, then of minute 5 again (all duplicates).
     const sheet = sheetOf('MR-1', sc.key);
     const scenario = parseScenario(JSON.parse(fs.readFileSync('ingest/scenarios/healthy.json', 'utf8')));
     for (const c of generatePackets({ sheet, scenario, startMs: startMs - 3 * 60_000, durationMs: 2 * 60_000 })) await ingestBody(pool, db, c.slice(), { spacecraftId: sc.id, stationId: null, tokenId: null });
-    const s = await runAnalysisJob(db, pool, sc);
+    const s = await job(sc);
     expect(s.batches).toBeGreaterThan(0);
     const after = await db.selectFrom('loop_window').select(['window_start', 'analysed_at']).where('spacecraft_id', '=', sc.id).orderBy('window_start').execute();
     const touched = after.filter((w) => !before.some((b) => b.window_start.getTime() === w.window_start.getTime() && b.analysed_at.getTime() === w.analysed_at.getTime()));
