@@ -63,7 +63,7 @@ export async function insertSyntheticHistory(db: Kysely<Database>, spacecraftId:
         temp.push(tc);
         rise.push(0.003 * Math.cos(day) + noise(0.002));
         resid.push(noise(0.4));
-        margin.push(45 + 38 * Math.max(0, Math.sin(day * 3)) ** 8 + noise(3));
+        margin.push(45 + 33 * Math.max(0, Math.sin(day * 3)) ** 8 + noise(3));
       }
       await sql`
         INSERT INTO loop_window (spacecraft_id, loop_id, window_start, window_s, samples, effectiveness, compensated_effectiveness, drift_cusum_lo,

@@ -60,7 +60,7 @@ test.describe('as the operator', () => {
     const created = await admin.post('/api/spacecraft/MR-1/tokens', { data: { label: 'pass watch e2e' } });
     expect(created.status()).toBe(201);
     const link = new Link(admin, ((await created.json()) as { token: string }).token);
-    await link.post(3);
+    const lastPosted = await link.post(3);
 
     await page.goto('/');
     await page.getByRole('navigation', { name: 'Main' }).getByRole('link', { name: 'Pass watch' }).click();
@@ -75,6 +75,7 @@ test.describe('as the operator', () => {
 
     // The charts grow with every batch, without a reload: the newest sample on the chart follows the posts.
     const first = await newestOnChart(page);
+    expect(first, 'no other MR-1 sample is newer than this link posts').toBeLessThanOrEqual(lastPosted);
     let newest = first;
     for (let k = 0; k < 4; k++) {
       newest = await link.post(1, 7);

@@ -44,7 +44,7 @@ function TripsTable({ result, trips, unitOf, scopeLabel }: { result: BacktestRes
   const labelOf = (q: string) => result.rules.find((r) => r.quantity === q)?.label ?? q;
   const pages = Math.max(1, Math.ceil(trips.length / PAGE));
   const at = Math.min(page, pages - 1);
-  if (!trips.length) return <p className="p-3 text-muted">Neither set would have raised a trip {scopeLabel} over this span.</p>;
+  if (!trips.length) return <p className="p-3 text-muted">Neither set would have raised a trip{scopeLabel ? ` ${scopeLabel}` : ''} over this span.</p>;
   const shown = trips.slice(at * PAGE, at * PAGE + PAGE);
   return (
     <>
@@ -56,13 +56,14 @@ function TripsTable({ result, trips, unitOf, scopeLabel }: { result: BacktestRes
             <th>Loop</th>
             <th>Level</th>
             <th>Onset (UTC)</th>
-            <th className="n">Raised after</th>
             <th>Cleared (UTC)</th>
-            <th className="n">Value at raise</th>
+            <th className="n">Lasted</th>
+            <th className="n">At raise</th>
             <th className="n">Peak</th>
             <th className="n">Limit</th>
-            <th className="n">Persistence</th>
-            <th className="n">Lasted</th>
+            <th className="n" title="Time from onset to the raise, and the consecutive points the limit asks for">
+              Raised after
+            </th>
           </tr>
         </thead>
         <tbody>
@@ -71,14 +72,14 @@ function TripsTable({ result, trips, unitOf, scopeLabel }: { result: BacktestRes
             return (
               <tr key={`${t.set}-${t.ruleIndex}-${t.loopId}-${t.onsetMs}`}>
                 <td className={`whitespace-nowrap ${t.set === 'draft' ? 'font-medium' : 'text-muted'}`}>{setLabel(t.set === 'draft' ? result.draft : result.baseline!, t.set)}</td>
-                <td>{labelOf(t.quantity)}</td>
+                <td className="min-w-[13rem]">{labelOf(t.quantity)}</td>
                 <td className="num">{t.loopId === null ? '—' : `L${t.loopId}`}</td>
                 <td>
                   <LevelBadge level={t.level} />
                 </td>
                 <td className="num whitespace-nowrap">{formatUtc(t.onsetMs)}</td>
-                <td className="n whitespace-nowrap">+{lasted(t.raisedMs - t.onsetMs)}</td>
                 <td className="num whitespace-nowrap">{t.clearedMs === null ? <span className="font-medium text-copper">persists at end</span> : formatUtc(t.clearedMs)}</td>
+                <td className="n whitespace-nowrap">{lasted((t.clearedMs ?? result.toMs) - t.onsetMs)}</td>
                 <td className="n whitespace-nowrap">
                   {formatValue(t.value)} <span className="unit">{unit}</span>
                 </td>
@@ -89,9 +90,8 @@ function TripsTable({ result, trips, unitOf, scopeLabel }: { result: BacktestRes
                   {t.side === 'high' ? '≥' : '≤'} {formatValue(t.limit)} <span className="unit">{unit}</span>
                 </td>
                 <td className="n whitespace-nowrap">
-                  {t.persistence} <span className="unit">points</span>
+                  +{lasted(t.raisedMs - t.onsetMs)} <span className="unit">({t.persistence} points)</span>
                 </td>
-                <td className="n whitespace-nowrap">{lasted((t.clearedMs ?? result.toMs) - t.onsetMs)}</td>
               </tr>
             );
           })}

@@ -83,10 +83,10 @@ function RuleRow({
   const described = (f: keyof LimitRuleInput) => (errors?.[f] ? { 'aria-invalid': true as const, 'aria-describedby': id(`${f}-error`) } : {});
   return (
     <li className="rounded border border-rule/70 p-2" aria-label={`Limit ${n}`}>
-      <div className="grid grid-cols-2 gap-2 md:grid-cols-6 xl:grid-cols-[minmax(10rem,2fr)_6.5rem_repeat(6,minmax(4.25rem,1fr))_4.75rem_auto]">
+      <div className="grid grid-cols-2 gap-2 md:grid-cols-6 xl:grid-cols-[minmax(12rem,2fr)_6.5rem_repeat(6,minmax(4rem,1fr))_4.75rem_auto]">
         <div className="col-span-2 md:col-span-3 xl:col-span-1">
           <label className="label" htmlFor={id('quantity')}>
-            Quantity
+            Quantity{info?.unit ? <span className="unit"> · levels in {info.unit}</span> : null}
           </label>
           <select id={id('quantity')} className="field" disabled={readOnly} aria-label={`Limit ${n} quantity`} {...described('quantity')} {...register(`rules.${index}.quantity`)}>
             {!info && <option value={quantity}>{quantity} (unknown)</option>}
@@ -125,7 +125,6 @@ function RuleRow({
           <div key={f}>
             <label className="label truncate" htmlFor={id(f)} title={info?.unit ? `${label} (${info.unit})` : label}>
               <span className={kind === 'warning' ? 'text-warning' : kind === 'caution' ? 'text-caution' : ''}>{label}</span>
-              {info?.unit ? <span className="unit"> {info.unit}</span> : null}
             </label>
             <input
               id={id(f)}
@@ -156,7 +155,7 @@ function RuleRow({
           />
           <FieldError id={id('persistence-error')} message={errors?.persistence?.message} />
         </div>
-        <div className="flex items-end">
+        <div className="flex items-start pt-5">
           {!readOnly && (
             <button type="button" className="btn h-8 px-2 text-xs" onClick={onRemove} aria-label={`Remove limit ${n}`}>
               Remove

@@ -411,6 +411,7 @@ export async function executeBacktest(db: Kysely<Database>, id: number, reader: 
     const loopIds = sheet ? sheet.sheet.loops.map((l) => l.id) : [];
     await db.updateTable('backtest').set({ rules_digest: rulesDigest(draft.rules) }).where('id', '=', id).execute();
     let written = 0;
+    let writtenAt = Number.NEGATIVE_INFINITY;
     const result = await replayLimitSets({
       load: (info, loopId, fromMs, toMs) => loadQuantitySeries(reader, claimed.spacecraft_id, info, loopId, fromMs, toMs),
       loopIds,
@@ -422,7 +423,9 @@ export async function executeBacktest(db: Kysely<Database>, id: number, reader: 
       parallel: 3,
       onProgress: async (f) => {
         const pct = Math.min(99, Math.floor(f * 100));
-        if (pct === written) return true;
+        // At most a few writes a second: each one is a round trip the replay waits for.
+        if (pct === written || performance.now() - writtenAt < 200) return true;
+        writtenAt = performance.now();
         // Writing progress doubles as the cancellation check: a cancelled job no longer matches.
         const r = await db.updateTable('backtest').set({ progress: pct }).where('id', '=', id).where('status', '=', 'running').returning('id').executeTakeFirst();
         written = pct;
