@@ -2,9 +2,9 @@
  * Benchmark of the physics analysis core: synthesises 24 h of one spacecraft with three loops (10 Hz
  * attitude, 10 Hz loop housekeeping, 1024-sample bursts every 5 min per loop) and times analyseSpan over
  * the whole day with 60 s windows, against a bare loop that reads the same arrays once.
- * Run: npx tsx scripts/bench-analysis.ts
+ * Run: npm run bench:analysis (pinned to one core where taskset exists), or npx tsx scripts/bench-analysis.ts
  */
-import { analyseSpan, type BurstInput, type LoopInput, type SpanInput } from '../src/lib/physics/analysis';
+import { analyseSpan, baselineStats, detectDrift, type BurstInput, type LoopInput, type SpanInput } from '../src/lib/physics/analysis';
 import { lossTorqueFunction } from '../src/lib/physics/friction';
 import { momentumPerVelocity } from '../src/lib/physics/loop-geometry';
 import { backEmf, idealPressureConstant, idealTorqueConstant } from '../src/lib/physics/pump';
@@ -162,6 +162,11 @@ const bareCpuMs = (bareCpu.user + bareCpu.system) / 1000;
 
 const ta = performance.now(), ca = process.cpuUsage();
 const result = analyseSpan(input, sheet, { window_s: 60 });
+// drift detection on each loop's compensated effectiveness, the first hour as baseline (as the job does per window)
+const drift = result.loops.map((l) => {
+  const t = l.windows.map((w) => w.start_s), e = l.windows.map((w) => w.compensatedEffectiveness ?? Number.NaN);
+  return detectDrift(t, e, baselineStats(e, 0, 60));
+});
 const anaMs = performance.now() - ta;
 const cpu = process.cpuUsage(ca);
 const cpuMs = (cpu.user + cpu.system) / 1000;
@@ -174,9 +179,12 @@ const meanEff = result.loops.map((l) => {
 });
 console.log(
   `generated in ${(genMs / 1000).toFixed(1)} s: ${samples} samples, ${input.bursts.length} bursts (checksum ${checksum.toExponential(3)}); ` +
-    `${result.body.length} body windows, ${fitted} kT fits, mean compensated effectiveness ${meanEff.join('/')} (true 0.850/0.820/0.790)`,
+    `${result.body.length} body windows, ${fitted} kT fits, EWMA and CUSUM over ${drift.reduce((s, d) => s + d.ewma.ewma.length, 0)} windows, mean compensated effectiveness ${meanEff.join('/')} (true 0.850/0.820/0.790)`,
 );
 console.log(
-  `analyseSpan 24 h × 3 loops, 60 s windows: ${(anaMs / 1000).toFixed(2)} s wall, ${(cpuMs / 1000).toFixed(2)} s CPU (target ≤ 2 s) | ` +
-    `bare read ${bareMs.toFixed(0)} ms wall, ${bareCpuMs.toFixed(0)} ms CPU | ratio ${(anaMs / bareMs).toFixed(0)}× | ${anaMs <= 2000 ? 'PASS' : 'OVER TARGET'}`,
+  `analyseSpan + drift 24 h × 3 loops, 60 s windows: ${(anaMs / 1000).toFixed(2)} s wall, ${(cpuMs / 1000).toFixed(2)} s CPU (target ≤ 2 s) | ` +
+    `bare read ${bareMs.toFixed(0)} ms wall, ${bareCpuMs.toFixed(0)} ms CPU | ratio ${(anaMs / bareMs).toFixed(0)}× | ` +
+    // CPU time counts the collector's helper threads too: the larger of the two is what one core would take
+    `${Math.max(anaMs, cpuMs) <= 2000 ? 'PASS' : 'OVER TARGET'}`,
 );
+if (Math.max(anaMs, cpuMs) > 2000) process.exitCode = 1;

@@ -266,6 +266,81 @@ function windowGroups(t: ArrayLike<number>, origin: number, w: number): Group[] 
   return out;
 }
 
+/** h = k_h·v, ḣ = k_h·v̇ (written over v̇'s buffer) and τ_loss(v) per sample. */
+function momentumAndLoss(flow: Samples, vdot: Float64Array, kh: number, loss: (v: number) => number) {
+  const n = flow.length;
+  const h = new Float64Array(n), hdot = vdot, tauLoss = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    const v = flow[i]!;
+    h[i] = kh * v;
+    hdot[i] = kh * vdot[i]!;
+    tauLoss[i] = loss(v);
+  }
+  return { h, hdot, tauLoss };
+}
+
+/** Slots of the window sums of one loop (sums s…, counts n…). */
+const S = {
+  I: 0, II: 1, nI: 2, H: 3, AbsH: 4, maxAbsH: 5, nH: 6, Tau: 7, AbsTau: 8, nTau: 9, P: 10, nP: 11, Cmd: 12, nCmd: 13,
+  V: 14, nV: 15, Mag: 16, nMag: 17, Dp: 18, nDp: 19, Tf: 20, nTf: 21, rxy: 22, rxx: 23, nR: 24, J: 25, nJ: 26,
+  tN: 27, tS: 28, tT: 29, tSS: 30, tST: 31, size: 32,
+} as const;
+
+/**
+ * One pass over samples [a, b) of a loop for its window sums, into `acc` (slots S). The fast pass assumes
+ * finite samples (the telemetry contract rejects non-finite values); if any sum comes out non-finite the
+ * window is summed again sample by sample with checks. Heating uses (V − E) against I, E the back-EMF
+ * (as heating.ts windowResistance and meanJoulePower). Kept small and separate so that it is optimised
+ * on its own after a few windows.
+ */
+function windowSums(L: LoopInput, h: Float64Array, hdot: Float64Array, tauLoss: Float64Array, emfPerV: number, a: number, b: number, acc: Float64Array): Float64Array {
+  const cur = L.current_a, volt = L.voltage_v, flow = L.flow_m_s, te_ = L.electrodeTemp_c, t = L.t_s;
+  const cmd = L.commanded_a, mag = L.magnetTemp_c, dpr = L.pressure_pa, tfl = L.fluidTemp_c;
+  let sI = 0, sII = 0, sH = 0, sAbsH = 0, maxAbsH = 0, sTau = 0, sAbsTau = 0, sP = 0, sV = 0;
+  let sCmd = 0, sMag = 0, sDp = 0, sTf = 0, rxy = 0, sJ = 0, tS = 0, tT = 0, tSS = 0, tST = 0;
+  const t0 = t[a]!;
+  for (let i = a; i < b; i++) {
+    const I = cur[i]!, V = volt[i]!, v = flow[i]!, hi = h[i]!, ti = hdot[i]! + tauLoss[i]!;
+    const ah = Math.abs(hi), vr = V - emfPerV * v, te = te_[i]!, dt = t[i]! - t0;
+    sI += I; sII += I * I; sH += hi; sAbsH += ah; if (ah > maxAbsH) maxAbsH = ah;
+    sTau += ti; sAbsTau += Math.abs(ti); sP += V * I; sV += v;
+    rxy += vr * I;
+    sCmd += cmd[i]!; sMag += mag[i]!; sDp += dpr[i]!; sTf += tfl[i]!;
+    tS += dt; tT += te; tSS += dt * dt; tST += dt * te;
+  }
+  sJ = rxy;
+  const cnt = b - a;
+  if (Number.isFinite(sI + sII + sH + sAbsH + sTau + sAbsTau + sP + sV + rxy + sCmd + sMag + sDp + sTf + tS + tT + tSS + tST)) {
+    acc[S.I] = sI; acc[S.II] = sII; acc[S.H] = sH; acc[S.AbsH] = sAbsH; acc[S.maxAbsH] = maxAbsH; acc[S.Tau] = sTau; acc[S.AbsTau] = sAbsTau;
+    acc[S.P] = sP; acc[S.V] = sV; acc[S.Cmd] = sCmd; acc[S.Mag] = sMag; acc[S.Dp] = sDp; acc[S.Tf] = sTf;
+    acc[S.rxy] = rxy; acc[S.rxx] = sII; acc[S.J] = sJ; acc[S.tS] = tS; acc[S.tT] = tT; acc[S.tSS] = tSS; acc[S.tST] = tST;
+    for (const k of [S.nI, S.nH, S.nTau, S.nP, S.nV, S.nR, S.nJ, S.nCmd, S.nMag, S.nDp, S.nTf, S.tN]) acc[k] = cnt;
+    return acc;
+  }
+  acc.fill(0);
+  const add = (k: number, x: number) => { acc[k] = acc[k]! + x; };
+  for (let i = a; i < b; i++) {
+    const I = cur[i]!, V = volt[i]!, v = flow[i]!;
+    if (Number.isFinite(I)) { add(S.I, I); add(S.II, I * I); add(S.nI, 1); }
+    const hi = h[i]!;
+    if (Number.isFinite(hi)) { const ah = Math.abs(hi); add(S.H, hi); add(S.AbsH, ah); if (ah > acc[S.maxAbsH]!) acc[S.maxAbsH] = ah; add(S.nH, 1); }
+    const ti = hdot[i]! + tauLoss[i]!;
+    if (Number.isFinite(ti)) { add(S.Tau, ti); add(S.AbsTau, Math.abs(ti)); add(S.nTau, 1); }
+    const p = V * I;
+    if (Number.isFinite(p)) { add(S.P, p); add(S.nP, 1); }
+    if (Number.isFinite(v)) { add(S.V, v); add(S.nV, 1); }
+    const vr = V - emfPerV * v;
+    if (Number.isFinite(vr * I)) { add(S.rxy, vr * I); add(S.rxx, I * I); add(S.nR, 1); add(S.J, vr * I); add(S.nJ, 1); }
+    const c = cmd[i]!; if (Number.isFinite(c)) { add(S.Cmd, c); add(S.nCmd, 1); }
+    const m = mag[i]!; if (Number.isFinite(m)) { add(S.Mag, m); add(S.nMag, 1); }
+    const dp = dpr[i]!; if (Number.isFinite(dp)) { add(S.Dp, dp); add(S.nDp, 1); }
+    const tf = tfl[i]!; if (Number.isFinite(tf)) { add(S.Tf, tf); add(S.nTf, 1); }
+    const te = te_[i]!, dt = t[i]! - t0;
+    if (Number.isFinite(te)) { add(S.tN, 1); add(S.tS, dt); add(S.tT, te); add(S.tSS, dt * dt); add(S.tST, dt * te); }
+  }
+  return acc;
+}
+
 function analyseLoop(L: LoopInput, loop: SheetLoop, origin: number, o: Required<Pick<AnalysisOptions, 'window_s' | 'sgHalfWidth' | 'sgOrder' | 'gapFactor' | 'fitIntercept' | 'magnetRefTemp_c' | 'magnetTempCoeff_per_k' | 'saturationWindows' | 'electrodeTempLimit_c'>> & AnalysisOptions) {
   const W = o.window_s;
   const n = L.t_s.length;
@@ -275,13 +350,7 @@ function analyseLoop(L: LoopInput, loop: SheetLoop, origin: number, o: Required<
   const segs = uniformSegments(L.t_s, o.gapFactor, step);
   const vdot = sgOverTime(L.t_s, L.flow_m_s, { halfWidth: o.sgHalfWidth, order: o.sgOrder, derivative: 1 }, segs);
   // vdot's buffer becomes ḣ; the fluid torque ḣ + τ_loss is formed where needed
-  const h = new Float64Array(n), hdot = vdot, tauLoss = new Float64Array(n);
-  for (let i = 0; i < n; i++) {
-    const v = L.flow_m_s[i]!;
-    h[i] = kh * v;
-    hdot[i] = kh * vdot[i]!;
-    tauLoss[i] = loss(v);
-  }
+  const { h, hdot, tauLoss } = momentumAndLoss(L.flow_m_s, vdot, kh, loss);
   const fitSeries = torqueFitSeries(h, L.current_a, L.flow_m_s, tauLoss, segs, o.sgHalfWidth);
   const kTIdeal = idealTorqueConstant(loop);
   const kpIdeal = idealPressureConstant(loop);
@@ -294,53 +363,15 @@ function analyseLoop(L: LoopInput, loop: SheetLoop, origin: number, o: Required<
   const groups = windowGroups(L.t_s, origin, W);
   const rows: LoopWindow[] = [];
   const absHMean: number[] = [], mid: number[] = [];
+  const acc = new Float64Array(S.size);
   for (const g of groups) {
     const { from: a, to: b } = g;
-    // one pass for the window's sums
-    let sI = 0, sII = 0, nI = 0, sH = 0, sAbsH = 0, maxAbsH = 0, nH = 0, sTau = 0, sAbsTau = 0, nTau = 0, sP = 0, nP = 0;
-    let sCmd = 0, nCmd = 0, sV = 0, nV = 0, sMag = 0, nMag = 0, sDp = 0, nDp = 0, sTf = 0, nTf = 0;
-    let rxy = 0, rxx = 0, nR = 0, sJ = 0, nJ = 0;
-    let tN = 0, tS = 0, tT = 0, tSS = 0, tST = 0;
-    const t0 = L.t_s[a]!;
-    // fast pass assuming finite samples (the telemetry contract rejects non-finite values);
-    // if any sum comes out non-finite the window is summed again sample by sample with checks
-    const cnt = b - a;
-    for (let i = a; i < b; i++) {
-      const I = L.current_a[i]!, V = L.voltage_v[i]!, v = L.flow_m_s[i]!, hi = h[i]!, ti = hdot[i]! + tauLoss[i]!;
-      const ah = Math.abs(hi), vr = V - emfPerV * v, te = L.electrodeTemp_c[i]!, dt = L.t_s[i]! - t0;
-      sI += I; sII += I * I; sH += hi; sAbsH += ah; if (ah > maxAbsH) maxAbsH = ah;
-      sTau += ti; sAbsTau += Math.abs(ti); sP += V * I; sV += v;
-      rxy += vr * I; rxx += I * I; sJ += vr * I;
-      sCmd += L.commanded_a[i]!; sMag += L.magnetTemp_c[i]!; sDp += L.pressure_pa[i]!; sTf += L.fluidTemp_c[i]!;
-      tS += dt; tT += te; tSS += dt * dt; tST += dt * te;
-    }
-    nI = nH = nTau = nP = nV = nR = nJ = nCmd = nMag = nDp = nTf = tN = cnt;
-    if (!Number.isFinite(sI + sII + sH + sAbsH + sTau + sAbsTau + sP + sV + rxy + rxx + sJ + sCmd + sMag + sDp + sTf + tS + tT + tSS + tST)) {
-      sI = sII = nI = sH = sAbsH = maxAbsH = nH = sTau = sAbsTau = nTau = sP = nP = 0;
-      sCmd = nCmd = sV = nV = sMag = nMag = sDp = nDp = sTf = nTf = 0;
-      rxy = rxx = nR = sJ = nJ = 0;
-      tN = tS = tT = tSS = tST = 0;
-      for (let i = a; i < b; i++) {
-        const I = L.current_a[i]!, V = L.voltage_v[i]!, v = L.flow_m_s[i]!;
-        if (Number.isFinite(I)) { sI += I; sII += I * I; nI++; }
-        const hi = h[i]!;
-        if (Number.isFinite(hi)) { const ah = Math.abs(hi); sH += hi; sAbsH += ah; if (ah > maxAbsH) maxAbsH = ah; nH++; }
-        const ti = hdot[i]! + tauLoss[i]!;
-        if (Number.isFinite(ti)) { sTau += ti; sAbsTau += Math.abs(ti); nTau++; }
-        const p = V * I;
-        if (Number.isFinite(p)) { sP += p; nP++; }
-        if (Number.isFinite(v)) { sV += v; nV++; }
-        // heating: (V − E) against I, E the back-EMF (as heating.ts windowResistance and meanJoulePower)
-        const vr = V - emfPerV * v;
-        if (Number.isFinite(vr * I)) { rxy += vr * I; rxx += I * I; nR++; sJ += vr * I; nJ++; }
-        const c = L.commanded_a[i]!; if (Number.isFinite(c)) { sCmd += c; nCmd++; }
-        const m = L.magnetTemp_c[i]!; if (Number.isFinite(m)) { sMag += m; nMag++; }
-        const dp = L.pressure_pa[i]!; if (Number.isFinite(dp)) { sDp += dp; nDp++; }
-        const tf = L.fluidTemp_c[i]!; if (Number.isFinite(tf)) { sTf += tf; nTf++; }
-        const te = L.electrodeTemp_c[i]!, dt = L.t_s[i]! - t0;
-        if (Number.isFinite(te)) { tN++; tS += dt; tT += te; tSS += dt * dt; tST += dt * te; }
-      }
-    }
+    const q = windowSums(L, h, hdot, tauLoss, emfPerV, a, b, acc);
+    const sI = q[S.I]!, sII = q[S.II]!, nI = q[S.nI]!, sH = q[S.H]!, sAbsH = q[S.AbsH]!, maxAbsH = q[S.maxAbsH]!, nH = q[S.nH]!;
+    const sTau = q[S.Tau]!, sAbsTau = q[S.AbsTau]!, nTau = q[S.nTau]!, sP = q[S.P]!, nP = q[S.nP]!, sCmd = q[S.Cmd]!, nCmd = q[S.nCmd]!;
+    const sV = q[S.V]!, nV = q[S.nV]!, sMag = q[S.Mag]!, nMag = q[S.nMag]!, sDp = q[S.Dp]!, nDp = q[S.nDp]!, sTf = q[S.Tf]!, nTf = q[S.nTf]!;
+    const rxy = q[S.rxy]!, rxx = q[S.rxx]!, nR = q[S.nR]!, sJ = q[S.J]!, nJ = q[S.nJ]!;
+    const tN = q[S.tN]!, tS = q[S.tS]!, tT = q[S.tT]!, tSS = q[S.tSS]!, tST = q[S.tST]!;
     const avg = (sum: number, count: number) => (count > 0 ? sum / count : Number.NaN);
     const Imean = nI > 0 ? sI / nI : Number.NaN;
     const Istd = nI > 1 ? Math.sqrt(Math.max(0, (sII - nI * Imean * Imean) / (nI - 1))) : Number.NaN;
@@ -442,6 +473,51 @@ function analyseLoop(L: LoopInput, loop: SheetLoop, origin: number, o: Required<
 
 const ACC_SIZE = 27;
 
+/** Per-sample series of the body pass. */
+interface BodySeries {
+  A: AttitudeInput;
+  /** ω̇ from the Savitzky–Golay derivative. */
+  wdx: Float64Array; wdy: Float64Array; wdz: Float64Array;
+  /** Σ h_i n̂_i and Σ ḣ_i n̂_i interpolated to the attitude times. */
+  hx: Float64Array; hy: Float64Array; hz: Float64Array;
+  dx: Float64Array; dy: Float64Array; dz: Float64Array;
+}
+
+/**
+ * Folds samples [from, to) of the body pass into `acc` (ACC_SIZE sums): body momentum, loop momentum,
+ * τ_body = I ω̇ + ω × (I ω + h), the ledger and the field magnitude. Separate so that it is optimised on its own.
+ */
+function bodyWindowSums(s: BodySeries, inertia: readonly number[], from: number, to: number, acc: Float64Array): void {
+  const [i00, i01, i02, i10, i11, i12, i20, i21, i22] = inertia as [number, number, number, number, number, number, number, number, number];
+  const rx = s.A.rate_x, ry = s.A.rate_y, rz = s.A.rate_z, mgx = s.A.mag_x, mgy = s.A.mag_y, mgz = s.A.mag_z;
+  const { wdx, wdy, wdz, hx, hy, hz, dx, dy, dz } = s;
+  acc.fill(0);
+  for (let i = from; i < to; i++) {
+    const wx = rx[i]!, wy = ry[i]!, wz = rz[i]!;
+    const Hx = i00 * wx + i01 * wy + i02 * wz, Hy = i10 * wx + i11 * wy + i12 * wz, Hz = i20 * wx + i21 * wy + i22 * wz;
+    if (Number.isFinite(Hx + Hy + Hz)) {
+      acc[0]!++; acc[1]! += wx; acc[2]! += wy; acc[3]! += wz; acc[4]! += Hx; acc[5]! += Hy; acc[6]! += Hz;
+    }
+    const lx = hx[i]!, ly = hy[i]!, lz = hz[i]!;
+    if (Number.isFinite(lx + ly + lz + Hx + Hy + Hz)) { acc[7]!++; acc[8]! += lx; acc[9]! += ly; acc[10]! += lz; }
+    // τ_body = I ω̇ + ω × (I ω + h)
+    const ax = wdx[i]!, ay = wdy[i]!, az = wdz[i]!;
+    const Tx = Hx + lx, Ty = Hy + ly, Tz = Hz + lz;
+    const tx = i00 * ax + i01 * ay + i02 * az + (wy * Tz - wz * Ty);
+    const ty = i10 * ax + i11 * ay + i12 * az + (wz * Tx - wx * Tz);
+    const tz = i20 * ax + i21 * ay + i22 * az + (wx * Ty - wy * Tx);
+    if (Number.isFinite(tx + ty + tz)) { acc[11]!++; acc[12]! += tx; acc[13]! += ty; acc[14]! += tz; }
+    const ex = tx + dx[i]!, ey = ty + dy[i]!, ez = tz + dz[i]!;
+    if (Number.isFinite(ex + ey + ez)) {
+      acc[15]!++; acc[16]! += dx[i]!; acc[17]! += dy[i]!; acc[18]! += dz[i]!;
+      acc[19]! += ex; acc[20]! += ey; acc[21]! += ez; acc[22]! += ex * ex; acc[23]! += ey * ey; acc[24]! += ez * ez;
+    }
+    const mx = mgx[i]!, my = mgy[i]!, mz = mgz[i]!;
+    const b = Math.sqrt(mx * mx + my * my + mz * mz);
+    if (Number.isFinite(b)) { acc[25]!++; acc[26]! += b; }
+  }
+}
+
 function analyseBody(
   A: AttitudeInput,
   sheet: SpacecraftSheet,
@@ -466,32 +542,10 @@ function analyseBody(
   const rows: BodyWindow[] = [];
   // one pass: per-sample figures folded straight into the window's sums
   const acc = new Float64Array(ACC_SIZE);
+  const series: BodySeries = { A, wdx, wdy, wdz, hx, hy, hz, dx, dy, dz };
+  const inertia = [i00, i01, i02, i10, i11, i12, i20, i21, i22] as const;
   for (const g of windowGroups(A.t_s, origin, W)) {
-    acc.fill(0);
-    for (let i = g.from; i < g.to; i++) {
-      const wx = A.rate_x[i]!, wy = A.rate_y[i]!, wz = A.rate_z[i]!;
-      const Hx = i00 * wx + i01 * wy + i02 * wz, Hy = i10 * wx + i11 * wy + i12 * wz, Hz = i20 * wx + i21 * wy + i22 * wz;
-      if (Number.isFinite(Hx + Hy + Hz)) {
-        acc[0]!++; acc[1]! += wx; acc[2]! += wy; acc[3]! += wz; acc[4]! += Hx; acc[5]! += Hy; acc[6]! += Hz;
-      }
-      const lx = hx[i]!, ly = hy[i]!, lz = hz[i]!;
-      if (Number.isFinite(lx + ly + lz + Hx + Hy + Hz)) { acc[7]!++; acc[8]! += lx; acc[9]! += ly; acc[10]! += lz; }
-      // τ_body = I ω̇ + ω × (I ω + h)
-      const ax = wdx[i]!, ay = wdy[i]!, az = wdz[i]!;
-      const Tx = Hx + lx, Ty = Hy + ly, Tz = Hz + lz;
-      const tx = i00 * ax + i01 * ay + i02 * az + (wy * Tz - wz * Ty);
-      const ty = i10 * ax + i11 * ay + i12 * az + (wz * Tx - wx * Tz);
-      const tz = i20 * ax + i21 * ay + i22 * az + (wx * Ty - wy * Tx);
-      if (Number.isFinite(tx + ty + tz)) { acc[11]!++; acc[12]! += tx; acc[13]! += ty; acc[14]! += tz; }
-      const ex = tx + dx[i]!, ey = ty + dy[i]!, ez = tz + dz[i]!;
-      if (Number.isFinite(ex + ey + ez)) {
-        acc[15]!++; acc[16]! += dx[i]!; acc[17]! += dy[i]!; acc[18]! += dz[i]!;
-        acc[19]! += ex; acc[20]! += ey; acc[21]! += ez; acc[22]! += ex * ex; acc[23]! += ey * ey; acc[24]! += ez * ez;
-      }
-      const mx = A.mag_x[i]!, my = A.mag_y[i]!, mz = A.mag_z[i]!;
-      const b = Math.sqrt(mx * mx + my * my + mz * mz);
-      if (Number.isFinite(b)) { acc[25]!++; acc[26]! += b; }
-    }
+    bodyWindowSums(series, inertia, g.from, g.to, acc);
     const v3 = (c: number, k: number): Vec3 | null => (acc[c]! > 0 ? finVec(acc[k]! / acc[c]!, acc[k + 1]! / acc[c]!, acc[k + 2]! / acc[c]!) : null);
     const body = v3(0, 4), loopH = v3(7, 8);
     const sys = body && loopH ? ([body[0] + loopH[0], body[1] + loopH[1], body[2] + loopH[2]] as Vec3) : null;

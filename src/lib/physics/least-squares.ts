@@ -233,6 +233,42 @@ export class NormalEquations {
     }
   }
 
+  /**
+   * Adds `rows` rows with p = 3 given by their sums: the upper triangle of XᵀX (s00 s01 s02 s11 s12 s22),
+   * Xᵀy (t0 t1 t2), yᵀy and Σy. With clustered errors the rows form one cluster, so a caller passes
+   * exactly clusterLength rows per call (fewer only for the last); the result equals add() row by row.
+   */
+  addBlock3(rows: number, s00: number, s01: number, s02: number, s11: number, s12: number, s22: number, t0: number, t1: number, t2: number, yy: number, ys: number): void {
+    if (this.p !== 3) throw new Error('NormalEquations.addBlock3 needs p = 3');
+    if (this.gathered) throw new Error('NormalEquations: rows added after solve');
+    if (rows <= 0) return;
+    this.yty += yy;
+    this.ysum += ys;
+    this.n += rows;
+    let m: Float64Array = this.xtx, base = 0, yOff = 0, xy: Float64Array = this.xty;
+    if (this.clusterLength > 1) {
+      if (this.inCluster !== 0 || rows > this.clusterLength) throw new Error('NormalEquations.addBlock3: a block is one whole cluster');
+      const stride = 12;
+      if ((this.nClusters + 1) * stride > this.clusters.length) {
+        const grown = new Float64Array(this.clusters.length * 2);
+        grown.set(this.clusters);
+        this.clusters = grown;
+      }
+      m = xy = this.clusters;
+      base = this.nClusters * stride;
+      yOff = base + 9;
+      this.nClusters++;
+      // a short block ends the clustering: later rows would start a new cluster anyway
+      this.inCluster = rows === this.clusterLength ? 0 : rows;
+      m.fill(0, base, base + stride);
+    }
+    // upper triangle of the row-major 3×3 block, as add() fills it
+    m[base] = m[base]! + s00; m[base + 1] = m[base + 1]! + s01; m[base + 2] = m[base + 2]! + s02;
+    m[base + 4] = m[base + 4]! + s11; m[base + 5] = m[base + 5]! + s12;
+    m[base + 8] = m[base + 8]! + s22;
+    xy[yOff] = xy[yOff]! + t0; xy[yOff + 1] = xy[yOff + 1]! + t1; xy[yOff + 2] = xy[yOff + 2]! + t2;
+  }
+
   private gatherTotals(): void {
     if (this.gathered) return;
     this.gathered = true;

@@ -25,6 +25,22 @@ export function hannWindow(n: number, periodic = true): Float64Array {
   return w;
 }
 
+const hanns = new Map<number, Float64Array>();
+/** The periodic Hann window of length n, formed once per length (callers only read it). */
+function cachedHann(n: number): Float64Array {
+  let w = hanns.get(n);
+  if (!w) { w = hannWindow(n); hanns.set(n, w); }
+  return w;
+}
+
+const scratch = new Map<number, Float64Array>();
+/** A reusable complex output buffer (2n doubles) for fft.js plans of size n. */
+function scratchFor(n: number): Float64Array {
+  let b = scratch.get(n);
+  if (!b) { b = new Float64Array(2 * n); scratch.set(n, b); }
+  return b;
+}
+
 /** Half spectrum of a real sequence. */
 export interface HalfSpectrum {
   /** Real parts of bins 0…⌊N/2⌋. */
@@ -43,7 +59,7 @@ export function realDft(x: ArrayLike<number>): HalfSpectrum {
   const re = new Float64Array(half), im = new Float64Array(half);
   if (n === 1) { re[0] = x[0]!; return { re, im }; }
   if (isPow2(n)) {
-    const out = new Float64Array(2 * n);
+    const out = scratchFor(n);
     plan(n).realTransform(out, x);
     for (let k = 0; k < half; k++) { re[k] = out[2 * k]!; im[k] = out[2 * k + 1]!; }
     return { re, im };
@@ -110,7 +126,7 @@ export function welchPsd(x: ArrayLike<number>, sampleRate_hz: number, options: W
   const nseg = Math.max(1, Math.min(options.segmentLength ?? 256, total));
   const step = Math.max(1, Math.round(nseg * (1 - (options.overlap ?? 0.5))));
   const detrend = options.detrend ?? true;
-  const w = hannWindow(nseg);
+  const w = cachedHann(nseg);
   let s1 = 0, s2 = 0;
   for (let i = 0; i < nseg; i++) { s1 += w[i]!; s2 += w[i]! * w[i]!; }
   const half = Math.floor(nseg / 2) + 1;

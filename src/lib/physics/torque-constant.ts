@@ -55,17 +55,38 @@ export function fitTorqueConstant(
 ): TorqueConstantFit | null {
   const p = options.intercept ? 4 : 3;
   const ne = new NormalEquations(p, options.clusterLength ?? 1);
-  const row = new Float64Array(p);
-  if (options.intercept) row[3] = 1;
   let shift = Number.NaN, sI = 0, sII = 0;
-  for (let i = from; i < to; i++) {
-    const I = current_a[i]!, v = flow_m_s[i]!, y = fluidTorque_Nm[i]!;
-    const vv = flowAbsFlow ? flowAbsFlow[i]! : v * Math.abs(v);
-    if (!Number.isFinite(I) || !Number.isFinite(v) || !Number.isFinite(y) || !Number.isFinite(vv)) continue;
-    if (Number.isNaN(shift)) shift = I;
-    sI += I - shift; sII += (I - shift) ** 2;
-    row[0] = I; row[1] = v; row[2] = vv;
-    ne.add(row, y);
+  if (p === 3) {
+    // the common case, summed in locals and handed over one cluster at a time (same sums as add())
+    const cl = ne.clusterLength;
+    let k = 0, s00 = 0, s01 = 0, s02 = 0, s11 = 0, s12 = 0, s22 = 0, t0 = 0, t1 = 0, t2 = 0, yy = 0, ys = 0;
+    for (let i = from; i < to; i++) {
+      const I = current_a[i]!, v = flow_m_s[i]!, y = fluidTorque_Nm[i]!;
+      const vv = flowAbsFlow ? flowAbsFlow[i]! : v * Math.abs(v);
+      if (!Number.isFinite(I + v + y + vv)) continue;
+      if (Number.isNaN(shift)) shift = I;
+      const d = I - shift;
+      sI += d; sII += d * d;
+      s00 += I * I; s01 += I * v; s02 += I * vv; s11 += v * v; s12 += v * vv; s22 += vv * vv;
+      t0 += I * y; t1 += v * y; t2 += vv * y; yy += y * y; ys += y;
+      if (++k === cl && cl > 1) {
+        ne.addBlock3(k, s00, s01, s02, s11, s12, s22, t0, t1, t2, yy, ys);
+        k = s00 = s01 = s02 = s11 = s12 = s22 = t0 = t1 = t2 = yy = ys = 0;
+      }
+    }
+    ne.addBlock3(k, s00, s01, s02, s11, s12, s22, t0, t1, t2, yy, ys);
+  } else {
+    const row = new Float64Array(p);
+    row[3] = 1;
+    for (let i = from; i < to; i++) {
+      const I = current_a[i]!, v = flow_m_s[i]!, y = fluidTorque_Nm[i]!;
+      const vv = flowAbsFlow ? flowAbsFlow[i]! : v * Math.abs(v);
+      if (!Number.isFinite(I) || !Number.isFinite(v) || !Number.isFinite(y) || !Number.isFinite(vv)) continue;
+      if (Number.isNaN(shift)) shift = I;
+      sI += I - shift; sII += (I - shift) ** 2;
+      row[0] = I; row[1] = v; row[2] = vv;
+      ne.add(row, y);
+    }
   }
   const n = ne.n;
   if (n < (options.minSamples ?? 20)) return null;

@@ -150,6 +150,27 @@ describe('streaming normal equations', () => {
     expect(sf.stdErr[0]! / Math.sqrt(v00)).toBeCloseTo(1, 7);
   });
 
+  it('the kT fit summed one cluster at a time equals olsFit with the same clusters (skipped rows, a short last cluster)', () => {
+    // the independent reference is olsFit on the kept rows, itself checked against ml-regression above
+    const r = rng(34);
+    const n = 1003, cl = 42;
+    const I = Array.from({ length: n }, (_, i) => 12 + 6 * Math.sin(i / 31) + r.gauss());
+    const v = I.map((c) => 0.02 * c + 0.01 * r.gauss());
+    const vv = v.map((s) => s * Math.abs(s));
+    const y = I.map((c, i) => 3e-4 * c - 2e-3 * v[i]! - 5e-3 * vv[i]! + 3e-5 * r.gauss());
+    for (const i of [5, 300, 301, 777]) y[i] = Number.NaN;
+    const keep = y.map((t, i) => (Number.isFinite(t) ? i : -1)).filter((i) => i >= 0);
+    const pick = (a: number[]) => keep.map((i) => a[i]!);
+    for (const clusterLength of [1, cl]) {
+      const fast = fitTorqueConstant(I, v, y, { minCurrentStd_a: 0.5, clusterLength }, 0, n, vv)!;
+      const ref = olsFit([pick(I), pick(v), pick(vv)], pick(y), { clusterLength })!;
+      expect(fast.n).toBe(keep.length);
+      expect(fast.kT / ref.coef[0]!).toBeCloseTo(1, 9);
+      expect(fast.c2 / ref.coef[2]!).toBeCloseTo(1, 7);
+      expect(fast.kTStdErr / ref.stdErr[0]!).toBeCloseTo(1, 7);
+    }
+  });
+
   it('clustered errors cover the truth about as often as they should under AR(1) noise; plain ones do not', () => {
     const r = rng(33);
     let plain = 0, clustered = 0;
