@@ -402,21 +402,26 @@ async function test() {
   spawnChild('web', process.execPath, ['dist/server/entry.mjs'], env);
   await waitForHttp(`http://127.0.0.1:${port}/sign-in`);
 
+  // `npm test -- --no-e2e [vitest filters]` stops after vitest (a developer's quick loop; CI runs everything)
+  const noE2e = extraArgs.includes('--no-e2e');
+  const vitestArgs = extraArgs.filter((a) => a !== '--no-e2e');
   const vitestJson = path.join(outDir, 'vitest.json');
-  const v = spawnSync(path.join(root, 'node_modules', '.bin', 'vitest'), ['run', '--reporter=default', '--reporter=json', `--outputFile.json=${vitestJson}`, ...extraArgs], {
+  const v = spawnSync(path.join(root, 'node_modules', '.bin', 'vitest'), ['run', '--reporter=default', '--reporter=json', `--outputFile.json=${vitestJson}`, ...vitestArgs], {
     stdio: 'inherit',
     env: { ...process.env, ...env },
   });
   results.push({ name: 'vitest', code: v.status, summary: summaryFromJson(vitestJson, 'vitest') });
 
-  // The end-to-end run starts from the demo seed again, whatever the integration tests left.
-  runTs('scripts/seed.ts', ['--reset'], env);
-  const pwJson = path.join(outDir, 'playwright.json');
-  const p = spawnSync(path.join(root, 'node_modules', '.bin', 'playwright'), ['test', '--reporter=list,json'], {
-    stdio: 'inherit',
-    env: { ...process.env, ...env, PLAYWRIGHT_JSON_OUTPUT_NAME: pwJson },
-  });
-  results.push({ name: 'playwright', code: p.status, summary: summaryFromJson(pwJson, 'playwright') });
+  if (!noE2e) {
+    // The end-to-end run starts from the demo seed again, whatever the integration tests left.
+    runTs('scripts/seed.ts', ['--reset'], env);
+    const pwJson = path.join(outDir, 'playwright.json');
+    const p = spawnSync(path.join(root, 'node_modules', '.bin', 'playwright'), ['test', '--reporter=list,json'], {
+      stdio: 'inherit',
+      env: { ...process.env, ...env, PLAYWRIGHT_JSON_OUTPUT_NAME: pwJson },
+    });
+    results.push({ name: 'playwright', code: p.status, summary: summaryFromJson(pwJson, 'playwright') });
+  }
 
   await killChildren();
   dropDatabase(dbUrl);

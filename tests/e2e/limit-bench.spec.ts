@@ -142,6 +142,8 @@ test.describe.serial('Limit bench', () => {
     await review.getByRole('button', { name: 'Approve and activate' }).click();
     await expect(set.getByText('active', { exact: true })).toBeVisible();
     await expect(review.getByRole('list', { name: 'Review trail' })).toContainText('Approved by Yuki Adeyemi');
+    // Nothing had judged this craft's limits live yet, so nothing carries on and no trip is closed.
+    await expect(review.getByRole('status')).toHaveText(/Handover done: 0 limit checks carry on from the retired set; no trip of the retired set was live\./);
     const versions = page.getByRole('navigation', { name: 'Limit set versions' });
     await expect(versions.getByRole('button', { name: /v2.*active/ })).toBeVisible();
     await expect(versions.getByRole('button', { name: /v1.*retired/ })).toBeVisible();

@@ -210,6 +210,9 @@ describe('Limit bench on a known fault (torque-constant loss on loop 0)', () => 
     expect((await put(engineer, d.id, { ...edited, rules: edited.rules.map((r, i) => (i === 0 ? { ...r, rationale: 'Bench: 0.6 trips the loop 0 fault earlier' } : r)) })).status).toBe(200);
     expect((await engineer.post(`/api/limit-sets/${d.id}/submit`, {})).status).toBe(200);
 
+    // The fault's trip under the old set is still live when the new set takes over.
+    const liveBefore = await db.selectFrom('trip').select('id').where('limit_set_id', '=', flown.activeSetId).where('cleared_at', 'is', null).execute();
+    expect(liveBefore.length).toBeGreaterThan(0);
     const approved = await engineer2.post(`/api/limit-sets/${d.id}/approve`, { comment: 'Agreed' });
     expect(approved.status, await approved.clone().text()).toBe(200);
     const a = await body<{ set: LimitSetView; retired: number }>(approved);
@@ -229,6 +232,21 @@ describe('Limit bench on a known fault (torque-constant loss on loop 0)', () => 
     expect(old.retired_at!.getTime()).toBe(sets.find((s) => s.id === d.id)!.activated_at!.getTime());
     // A second approval has nothing to approve.
     expect((await engineer2.post(`/api/limit-sets/${d.id}/approve`, {})).status).toBe(409);
+
+    // Handover: the old set's live trips are closed with a note (not as if the value had returned), and
+    // the new rules start where the old ones had judged through, so the next run raises no second trip
+    // for the excursion that already has one.
+    const closed = await db.selectFrom('trip').select(['id', 'cleared_at', 'cleared_note', 'state']).where('id', 'in', liveBefore.map((t) => t.id)).execute();
+    for (const t of closed) {
+      expect(t.cleared_at!.getTime()).toBe(old.retired_at!.getTime());
+      expect(t.cleared_note).toMatch(new RegExp(`limit set v\\d+ retired and v${a.set.version} judges this quantity from`));
+      expect(t.state).toBe('open');
+    }
+    const seeded = await db.selectFrom('rule_cursor as c').innerJoin('limit_rule as r', 'r.id', 'c.rule_id').select(['r.quantity', 'c.loop_id']).where('r.limit_set_id', '=', d.id).execute();
+    expect(seeded.some((c) => c.quantity === 'effectiveness' && c.loop_id === 0)).toBe(true);
+    expect((await runAnalysisJob(db, pool, flown.sc, { nowMs: flown.endMs + 5_000 })).status).toBe('done');
+    const raisedByNew = await db.selectFrom('trip').select('id').where('limit_set_id', '=', d.id).execute();
+    expect(raisedByNew).toEqual([]);
 
     // The history shows what changed against the version before.
     const diff = await body<{ previous: { id: number; status: string } | null; diff: { changed: { quantity: string; fields: { field: string; before: unknown; after: unknown }[] }[]; added: unknown[]; removed: unknown[] } }>(

@@ -16,6 +16,7 @@ import {
   type LimitSetSummary,
   type LimitSetView,
 } from './limit-bench.queries';
+import type { Handover } from '../../lib/server/trip-engine';
 import { RulesForm } from './RulesForm';
 import { BacktestPanel } from './BacktestPanel';
 
@@ -127,10 +128,13 @@ function DiffPanel({ set }: { set: LimitSetView }) {
 function ReviewPanel({ set, user, unsaved, onChanged }: { set: LimitSetView; user: BenchUser; unsaved: boolean; onChanged: (s: LimitSetView) => void }) {
   const [comment, setComment] = useState('');
   const [commentError, setCommentError] = useState<string | null>(null);
+  const [handover, setHandover] = useState<Handover | null>(null);
   const act = useMutation({
-    mutationFn: (what: 'submit' | 'approve' | 'return') => (what === 'submit' ? submitSet(set.id, comment) : what === 'approve' ? approveSet(set.id, comment) : returnSet(set.id, comment)),
+    mutationFn: async (what: 'submit' | 'approve' | 'return'): Promise<{ set: LimitSetView; handover: Handover | null }> =>
+      what === 'approve' ? approveSet(set.id, comment) : { set: (await (what === 'submit' ? submitSet : returnSet)(set.id, comment)).set, handover: null },
     onSuccess: (r) => {
       setComment('');
+      setHandover(r.handover);
       onChanged(r.set);
     },
     onError: (err) => {
@@ -197,10 +201,34 @@ function ReviewPanel({ set, user, unsaved, onChanged }: { set: LimitSetView; use
               Return with comments
             </button>
           </div>
-          <p className="text-xs text-muted">Approving makes v{set.version} the active set of this spacecraft at once and retires the one in force.</p>
+          <p className="text-xs text-muted">
+            Approving makes v{set.version} the active set of this spacecraft at once and retires the one in force. Limits on a quantity both sets watch carry on from where the retired set stopped; a
+            quantity new to this set is judged over the last 24 h. Trips of the retired set whose condition persists are closed at the handover with a note and stay open for acknowledgement.
+          </p>
         </div>
       )}
       {set.status === 'active' && <p className="text-muted">In force since {formatUtc(set.activatedAt)} UTC; the scheduler evaluates these limits. To change them, make a new draft.</p>}
+      {set.status === 'active' && handover && (
+        <p role="status" className="text-sm" data-testid="handover">
+          Handover done: {handover.seeded.length} limit {handover.seeded.length === 1 ? 'check carries' : 'checks carry'} on from the retired set;{' '}
+          {handover.closed.length === 0 ? (
+            'no trip of the retired set was live.'
+          ) : (
+            <>
+              {handover.closed.length === 1 ? 'trip' : 'trips'}{' '}
+              {handover.closed.map((id, i) => (
+                <span key={id}>
+                  {i > 0 ? ', ' : ''}
+                  <a className="link" href={`/trips/${id}`}>
+                    #{id}
+                  </a>
+                </span>
+              ))}{' '}
+              of the retired set {handover.closed.length === 1 ? 'was' : 'were'} live and {handover.closed.length === 1 ? 'is' : 'are'} now closed at the handover.
+            </>
+          )}
+        </p>
+      )}
       {set.status === 'retired' && <p className="text-muted">Retired {formatUtc(set.retiredAt)} UTC.</p>}
       {err && !err.fields.comment && (
         <p role="alert" className="rounded border border-warning/40 bg-warning/10 px-3 py-2 text-sm">

@@ -3,6 +3,7 @@ import { http } from '../../lib/http';
 import type { LimitSetInput } from '../../lib/limits/limit-set.schema';
 import type { LimitSetSummary, LimitSetView, RuleDiff } from '../../lib/server/limit-review';
 import type { BacktestView } from '../../lib/server/backtest';
+import type { Handover } from '../../lib/server/trip-engine';
 import type { BacktestInput } from './limit-bench.schema';
 
 export type { LimitSetSummary, LimitSetView, RuleDiff, BacktestView };
@@ -57,7 +58,7 @@ export const backtestQuery = (id: number) =>
 export const createDraft = (spacecraft: string, copyOf?: number) => http<{ set: LimitSetView }>('/api/limit-sets', { method: 'POST', json: { spacecraft, copyOf } });
 export const saveDraft = (id: number, input: LimitSetInput) => http<{ set: LimitSetView }>(setUrl(id), { method: 'PUT', json: input });
 export const submitSet = (id: number, comment: string) => http<{ set: LimitSetView }>(`${setUrl(id)}/submit`, { method: 'POST', json: { comment } });
-export const approveSet = (id: number, comment: string) => http<{ set: LimitSetView }>(`${setUrl(id)}/approve`, { method: 'POST', json: { comment } });
+export const approveSet = (id: number, comment: string) => http<{ set: LimitSetView; handover: Handover | null }>(`${setUrl(id)}/approve`, { method: 'POST', json: { comment } });
 export const returnSet = (id: number, comment: string) => http<{ set: LimitSetView }>(`${setUrl(id)}/return`, { method: 'POST', json: { comment } });
 export const startBacktest = (id: number, span: BacktestInput) => http<{ backtest: BacktestView }>(`${setUrl(id)}/backtests`, { method: 'POST', json: span });
 export const cancelBacktest = (id: number) => http<{ backtest: BacktestView }>(`/api/backtests/${id}/cancel`, { method: 'POST', json: {} });

@@ -82,7 +82,7 @@ export default function TripQueue({ trips, canAcknowledge, onChange }: { trips: 
               </p>
               <p className="text-xs text-muted">
                 onset <span className="num">{formatUtc(t.onset_at)}</span> UTC ·{' '}
-                {t.cleared_at ? `cleared ${formatUtc(t.cleared_at).slice(11)}` : <span className="font-medium text-copper">persists</span>}
+                {t.cleared_at ? `${t.cleared_note ? 'closed at handover' : 'cleared'} ${formatUtc(t.cleared_at).slice(11)}` : <span className="font-medium text-copper">persists</span>}
               </p>
               {t.state === 'acknowledged' && (
                 <p className="text-xs text-muted">

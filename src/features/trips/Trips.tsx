@@ -36,7 +36,16 @@ const columns = [
     ),
   }),
   col.accessor('onset_at', { header: 'Onset (UTC)', cell: (c) => <span className="num">{formatUtc(c.getValue())}</span> }),
-  col.accessor('cleared_at', { header: 'Condition', enableSorting: false, cell: (c) => (c.getValue() ? <span className="text-muted">cleared {formatUtc(c.getValue()).slice(11)}</span> : <span className="font-medium text-copper">persists</span>) }),
+  col.accessor('cleared_at', {
+    header: 'Condition',
+    enableSorting: false,
+    cell: (c) => {
+      const at = c.getValue();
+      if (!at) return <span className="font-medium text-copper">persists</span>;
+      const note = c.row.original.cleared_note;
+      return note ? <span className="text-muted" title={note}>closed at handover {formatUtc(at).slice(11)}</span> : <span className="text-muted">cleared {formatUtc(at).slice(11)}</span>;
+    },
+  }),
 ];
 
 function TripsTable({ initial, initialFilters, spacecraftKeys, kinds }: Props) {

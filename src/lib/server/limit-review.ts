@@ -9,6 +9,7 @@ import { findSheetInForce } from './spacecraft';
 import { insertAuditEntry } from './audit';
 import { HttpError, parseWith } from './http';
 import { listBacktests, rulesDigest, type BacktestView } from './backtest';
+import { handOverLimits, type Handover } from './trip-engine';
 
 type Db = Kysely<Database> | Transaction<Database>;
 
@@ -179,7 +180,7 @@ export async function submitDraft(db: Kysely<Database>, id: number, actor: Sessi
  * one transaction. The spacecraft's row is locked first so that two approvals take turns, and the
  * old set retires before the new one activates (one active set per spacecraft is a unique index).
  */
-export async function approveSet(db: Kysely<Database>, id: number, actor: SessionUser, comment: string): Promise<{ activated: number; retired: number | null }> {
+export async function approveSet(db: Kysely<Database>, id: number, actor: SessionUser, comment: string): Promise<{ activated: number; retired: number | null; handover: Handover | null }> {
   return db.transaction().execute(async (trx) => {
     const peek = await trx.selectFrom('limit_set').select('spacecraft_id').where('id', '=', id).executeTakeFirst();
     if (!peek) throw new HttpError('NOT_FOUND', `There is no limit set ${id}.`);
@@ -194,9 +195,13 @@ export async function approveSet(db: Kysely<Database>, id: number, actor: Sessio
       await insertAuditEntry(trx, { actorId: actor.id, action: 'limit-set.retire', targetType: 'limit_set', targetId: old.id, detail: { version: old.version, replacedBy: { id, version: set.version } } });
     }
     await trx.updateTable('limit_set').set({ status: 'active', activated_at: now }).where('id', '=', id).execute();
+    const handover = old ? await handOverLimits(trx, set.spacecraft_id, old, { id, version: set.version }, await loopIdsOf(trx, set.spacecraft_id, now), now) : null;
     await review(trx, id, 'approved', actor.id, comment);
-    await insertAuditEntry(trx, { actorId: actor.id, action: 'limit-set.approve', targetType: 'limit_set', targetId: id, detail: { version: set.version, comment, retired: old ? { id: old.id, version: old.version } : null } });
-    return { activated: id, retired: old?.id ?? null };
+    await insertAuditEntry(trx, {
+      actorId: actor.id, action: 'limit-set.approve', targetType: 'limit_set', targetId: id,
+      detail: { version: set.version, comment, retired: old ? { id: old.id, version: old.version } : null, handover: handover ? { seededCursors: handover.seeded.length, closedTrips: handover.closed } : null },
+    });
+    return { activated: id, retired: old?.id ?? null, handover };
   });
 }
 

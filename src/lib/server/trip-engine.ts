@@ -169,6 +169,72 @@ export async function evaluateActiveLimits(
   return changes;
 }
 
+/** What a limit-set handover did. */
+export interface Handover {
+  /** Cursors of the new set's rules started where the retired set's rule on the same quantity and loop stood. */
+  seeded: { ruleId: number; loopId: number; through: string }[];
+  /** Trips of the retired set whose condition was still live, closed with a note. */
+  closed: number[];
+}
+
+/**
+ * Hands a spacecraft's limits over from the retiring set to the newly active one, inside the approval's
+ * transaction. Where the retired set watched the same quantity on the same loop, the new rule starts at
+ * the point the old one had judged through, so the next run does not judge that history again and raise
+ * a second trip for an excursion that already has one; a quantity the old set did not watch judges the
+ * engine's usual look-back, as a first set does. Trips of the retired set whose condition was still live
+ * can no longer clear (their rule is no longer evaluated): they are closed at the handover with a note
+ * saying so, and stay open for acknowledgement and resolution. If the condition persists, the new rule
+ * raises its own trip after its persistence.
+ */
+export async function handOverLimits(
+  trx: Transaction<Database>,
+  spacecraftId: number,
+  retired: { id: number; version: number },
+  active: { id: number; version: number },
+  loopIds: readonly number[],
+  at: Date,
+): Promise<Handover> {
+  const old = await trx
+    .selectFrom('rule_cursor as c')
+    .innerJoin('limit_rule as r', 'r.id', 'c.rule_id')
+    .select(['r.quantity', 'c.loop_id', 'c.evaluated_through'])
+    .where('r.limit_set_id', '=', retired.id)
+    .execute();
+  const through = new Map<string, Date>();
+  for (const c of old) {
+    const key = `${c.quantity}:${c.loop_id}`;
+    const seen = through.get(key);
+    if (!seen || c.evaluated_through > seen) through.set(key, c.evaluated_through);
+  }
+  const rules = await trx.selectFrom('limit_rule').select(['id', 'quantity', 'loop_id']).where('limit_set_id', '=', active.id).orderBy('id').execute();
+  const seeded: Handover['seeded'] = [];
+  for (const rule of rules) {
+    const info = quantityInfo(rule.quantity);
+    if (!info) continue;
+    const targets = info.scope === 'body' ? [BODY] : rule.loop_id !== null ? [rule.loop_id] : [...loopIds];
+    for (const loopId of targets) {
+      const t = through.get(`${rule.quantity}:${loopId}`);
+      if (!t) continue;
+      await trx
+        .insertInto('rule_cursor')
+        .values({ rule_id: rule.id, loop_id: loopId, evaluated_through: t, state: JSON.stringify(initialRuleState()) })
+        .onConflict((oc) => oc.columns(['rule_id', 'loop_id']).doNothing())
+        .execute();
+      seeded.push({ ruleId: rule.id, loopId, through: t.toISOString() });
+    }
+  }
+  const closed = await trx
+    .updateTable('trip')
+    .set({ cleared_at: at, cleared_note: `Closed at the handover: limit set v${retired.version} retired and v${active.version} judges this quantity from ${at.toISOString().slice(0, 19).replace('T', ' ')} UTC.` })
+    .where('spacecraft_id', '=', spacecraftId)
+    .where('limit_set_id', '=', retired.id)
+    .where('cleared_at', 'is', null)
+    .returning('id')
+    .execute();
+  return { seeded, closed: closed.map((r) => r.id) };
+}
+
 async function applyEvent(
   trx: Transaction<Database>,
   spacecraftId: number,

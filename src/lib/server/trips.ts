@@ -16,7 +16,7 @@ function baseQuery(db: Db) {
     .leftJoin('app_user as res', 'res.id', 't.resolved_by')
     .select([
       't.id', 's.key as spacecraft', 't.loop_id', 't.kind', 't.quantity', 't.level', 't.side', 't.state',
-      't.limit_set_version', 't.onset_at', 't.raised_at', 't.escalated_at', 't.cleared_at', 't.value', 't.peak_value', 't.limit_value',
+      't.limit_set_version', 't.onset_at', 't.raised_at', 't.escalated_at', 't.cleared_at', 't.cleared_note', 't.value', 't.peak_value', 't.limit_value',
       't.last_value', 't.last_at', 't.acknowledged_at', 't.acknowledge_note', 'ack.name as acknowledged_by', 't.resolved_at', 't.resolution', 'res.name as resolved_by',
     ]);
 }

@@ -337,6 +337,8 @@ export interface TripTable {
   raised_at: Timestamp;
   escalated_at: Timestamp | null;
   cleared_at: Timestamp | null;
+  /** Set when the trip was closed by a limit-set handover rather than by the value returning within limits. */
+  cleared_note: string | null;
   value: number;
   peak_value: number;
   limit_value: number;

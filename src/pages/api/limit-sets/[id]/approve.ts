@@ -11,5 +11,5 @@ export const POST: APIRoute = handle(async ({ locals, params, request }) => {
   const id = idParam('id', params.id);
   const input = await parseBody(reviewCommentInputSchema, request);
   const r = await approveSet(db, id, user, input.comment);
-  return json({ set: await findLimitSetView(db, id), retired: r.retired });
+  return json({ set: await findLimitSetView(db, id), retired: r.retired, handover: r.handover });
 });
