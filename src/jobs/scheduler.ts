@@ -1,10 +1,11 @@
-// The scheduler process of `npm start`: every minute, analyse what arrived and evaluate limits;
-// every day, create the telemetry partitions ahead. Several instances may run: the advisory lock
+// The scheduler process of `npm start`: every minute, refresh stale pass predictions, analyse what
+// arrived and evaluate limits; every day, create the telemetry partitions ahead. Several instances may run: the advisory lock
 // per spacecraft and job makes sure each piece of work is done once.
 import cron from 'node-cron';
 import { db, pool } from '../lib/server/db';
 import { runDueJobs } from '../lib/server/analysis-job';
 import { ensurePartitionsAhead } from '../lib/server/telemetry-store';
+import { refreshPassesIfStale } from '../lib/server/passes';
 import { tripMailHandler } from '../lib/server/trip-mail';
 import { createMailTransport, startMailWorker } from '../lib/server/mail';
 
@@ -13,6 +14,9 @@ async function tick(): Promise<void> {
   if (running) return; // the previous minute's run is still going
   running = true;
   try {
+    // the data-age limit watches predicted passes: keep their horizon filled even when nobody opens Passes
+    const refreshed = await refreshPassesIfStale(db);
+    if (refreshed.length) console.log(`[scheduler] passes recomputed for ${refreshed.length} spacecraft`);
     const summaries = await runDueJobs(db, pool, { onTripChange: tripMailHandler });
     const busy = summaries.filter((s) => s.status !== 'done');
     const trips = summaries.reduce((n, s) => n + s.trips.opened + s.trips.escalated + s.trips.cleared, 0);
