@@ -1,6 +1,6 @@
 // The demo fleet's feed, as `npm start` runs it: fresh ingest tokens for the demo spacecraft (the
 // previous demo-feed tokens are revoked), a feed configuration under .data/, then the feed itself
-// in real time. `npm run feed -- --playback --hours 24` passes its arguments on to the feed.
+// in real time (after a short playback when the database holds no telemetry yet). `npm run feed -- --playback --hours 24` passes its arguments on to the feed.
 import fs from 'node:fs';
 import path from 'node:path';
 import { spawn } from 'node:child_process';
@@ -16,6 +16,10 @@ const file = path.resolve('.data/demo-feed.json');
 // A restart within a few hours resumes the same simulated timeline (the sim regenerates it
 // exactly, sequence counts included), so a restart does not look like a spacecraft reboot.
 const RESUME_WITHIN_MS = 6 * 3600_000;
+// On a database without any telemetry, the feed first plays back the last BACKFILL_HOURS of the
+// same timeline (as if the recorder were dumped), so that the Fleet, Trips and a casefile have
+// something to show at once instead of waiting for the first pass; real time then carries on.
+const BACKFILL_HOURS = 2;
 let startedAtMs = Math.floor(Date.now() / 1000) * 1000;
 try {
   const previous = JSON.parse(fs.readFileSync(file, 'utf8')) as { spacecraft?: { startedAtMs?: number }[] };
@@ -24,6 +28,10 @@ try {
 } catch {
   // first start
 }
+const empty = !(await db.selectFrom('loop_sample').select('spacecraft_id').limit(1).executeTakeFirst());
+// with nothing stored there is no earlier timeline to stay consistent with
+const backfill = empty && process.argv.length <= 2;
+if (backfill) startedAtMs = Math.floor(Date.now() / 1000) * 1000 - BACKFILL_HOURS * 3600_000;
 const fleet = await db.selectFrom('spacecraft').select(['id', 'key']).orderBy('key').execute();
 const spacecraft = [];
 for (const sc of fleet) {
@@ -42,6 +50,17 @@ if (!spacecraft.length) {
 }
 fs.mkdirSync(path.dirname(file), { recursive: true });
 fs.writeFileSync(file, JSON.stringify({ baseUrl: config().PUBLIC_URL, spacecraft, ...(stations.length ? { stations } : {}) }, null, 2), { mode: 0o600 });
-const child = spawn(process.execPath, ['--import', 'tsx', 'ingest/feed.ts', '--config', file, ...process.argv.slice(2)], { stdio: 'inherit' });
-for (const sig of ['SIGINT', 'SIGTERM'] as const) process.on(sig, () => child.kill(sig));
-child.on('exit', (code) => process.exit(code ?? 0));
+let child: ReturnType<typeof spawn> | null = null;
+let stopping = false;
+for (const sig of ['SIGINT', 'SIGTERM'] as const) process.on(sig, () => { stopping = true; child?.kill(sig); });
+const feed = (args: string[]) =>
+  new Promise<number>((resolve) => {
+    child = spawn(process.execPath, ['--import', 'tsx', 'ingest/feed.ts', '--config', file, ...args], { stdio: 'inherit' });
+    child.on('exit', (code) => resolve(code ?? 0));
+  });
+if (backfill) {
+  console.log(`[feed] no telemetry stored yet: playing back the last ${BACKFILL_HOURS} h first`);
+  const code = await feed(['--playback', '--hours', String(BACKFILL_HOURS)]);
+  if (code !== 0 || stopping) process.exit(code);
+}
+process.exit(await feed(process.argv.slice(2)));

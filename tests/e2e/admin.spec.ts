@@ -54,7 +54,7 @@ test.describe('as the admin', () => {
     await page.setViewportSize({ width: 1440, height: 1000 });
     const invitee = email('invitee');
     await page.goto('/');
-    await page.getByRole('navigation', { name: 'Main' }).getByRole('link', { name: 'People' }).click();
+    await page.getByRole('navigation', { name: 'Administration' }).getByRole('link', { name: 'People' }).click();
     await expect(page.getByRole('heading', { name: 'People', level: 1 })).toBeVisible();
 
     const form = page.getByRole('form', { name: 'Invite someone' });
@@ -117,7 +117,7 @@ test.describe('as the admin', () => {
     expect((await guest.request.get('/api/me')).status()).toBe(401);
 
     // Every change is in the audit log.
-    await page.getByRole('navigation', { name: 'Main' }).getByRole('link', { name: 'Audit log' }).click();
+    await page.getByRole('navigation', { name: 'Administration' }).getByRole('link', { name: 'Audit log' }).click();
     const filters = page.getByRole('form', { name: 'Filter the audit log' });
     await filters.getByLabel('Target type').selectOption('user');
     await filters.getByRole('button', { name: 'Show' }).click();

@@ -201,7 +201,7 @@ test.describe('as the admin', () => {
 
   test('creates an ingest token, sees it once, uses it, and revokes it', async ({ page }) => {
     await page.goto('/');
-    await page.getByRole('navigation', { name: 'Main' }).getByRole('link', { name: 'Tokens' }).click();
+    await page.getByRole('navigation', { name: 'Administration' }).getByRole('link', { name: 'Tokens' }).click();
     await expect(page.getByRole('heading', { name: 'Ingest tokens', level: 1 })).toBeVisible();
     const panel = page.getByRole('region', { name: 'Ingest tokens of MR-1' });
 

@@ -64,7 +64,7 @@ test.describe('as the admin', () => {
   test('Mailbox shows the trip message the relay caught, as HTML in a sandboxed frame and as plain text', async ({ page }) => {
     await page.setViewportSize({ width: 1280, height: 1100 });
     await page.goto('/');
-    await page.getByRole('navigation', { name: 'Main' }).getByRole('link', { name: 'Mailbox' }).click();
+    await page.getByRole('navigation', { name: 'Administration' }).getByRole('link', { name: 'Mailbox' }).click();
     await expect(page.getByRole('heading', { name: 'Mailbox', level: 1 })).toBeVisible();
     const item = page.getByRole('list', { name: 'Messages' }).getByRole('button', { name: /WARNING · MR-2 L1 electrode temperature 212\.4 °C/ }).first();
     await item.click();
@@ -136,6 +136,7 @@ test.describe('as the analyst', () => {
     await page.goto('/roster/MR-1');
     await expect(page.getByRole('region', { name: 'On-call roster of MR-1' })).toBeVisible();
     await expect(page.getByRole('form', { name: /Add a shift/ })).toHaveCount(0);
-    await expect(page.getByRole('navigation', { name: 'Main' }).getByRole('link', { name: 'Mailbox' })).toHaveCount(0);
+    await expect(page.getByRole('navigation', { name: 'Administration' })).toHaveCount(0);
+    await expect(page.getByRole('navigation', { name: 'Main' }).getByRole('link', { name: 'Trips' })).toBeVisible();
   });
 });

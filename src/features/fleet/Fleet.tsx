@@ -64,7 +64,6 @@ function FleetTable({ initial }: { initial: FleetResponse }) {
             <thead>
               <tr>
                 <th>Loop</th>
-                <th>Geometry</th>
                 <th className="n" title="kT / ideal, latest window">Effect.</th>
                 <th className="n" title="Electrode temperature, latest window">Electrode</th>
                 <th className="n" title="Momentum margin in use, latest window">Margin</th>
@@ -74,9 +73,9 @@ function FleetTable({ initial }: { initial: FleetResponse }) {
             <tbody>
               {sc.loops.map((l) => (
                 <tr key={l.id}>
-                  <td className="num">L{l.id}</td>
-                  <td>
-                    <span title={`axis ${axisText(l.axis)}, rated ${l.ratedCurrent_A} A`}>
+                  <td className="py-1 leading-tight">
+                    <span className="num font-medium">L{l.id}</span>
+                    <span className="block text-xs text-muted" title={`axis ${axisText(l.axis)}, rated ${l.ratedCurrent_A} A`}>
                       {shapeText(l.shape)}
                       {l.pumpStations > 1 ? `, ${l.pumpStations} pumps` : ''}
                     </span>
