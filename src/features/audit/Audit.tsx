@@ -4,7 +4,7 @@ import { useForm } from 'react-hook-form';
 import { zodResolver } from '@hookform/resolvers/zod';
 import type { z } from 'zod';
 import { getQueryClient } from '../../lib/query-client';
-import { utcText } from '../link/format';
+import { utcText } from '../../lib/format';
 import { auditQuery, auditSearch, type AuditEntryRow, type AuditFilters, type AuditPage } from './audit.queries';
 import { auditQuerySchema, type AuditQuery } from './audit.schema';
 

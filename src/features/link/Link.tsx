@@ -2,7 +2,7 @@ import type { ReactNode } from 'react';
 import { QueryClientProvider, useQuery } from '@tanstack/react-query';
 import { getQueryClient } from '../../lib/query-client';
 import { linkQuery, type LinkBatch, type LinkView } from './link.queries';
-import { APID_NAMES, countText, utcClock, utcText } from './format';
+import { APID_NAMES, countText, utcClock, utcText } from '../../lib/format';
 import { Size } from './Qty';
 
 interface Props {

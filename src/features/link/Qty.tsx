@@ -1,4 +1,4 @@
-import { sizeParts } from './format';
+import { sizeParts } from '../../lib/format';
 
 /** A number with its unit in the lighter unit style. */
 export function Qty({ value, unit }: { value: string | number; unit: string }) {

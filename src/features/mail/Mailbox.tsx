@@ -1,7 +1,7 @@
 import { useState, type ReactNode } from 'react';
 import { QueryClientProvider, useQuery } from '@tanstack/react-query';
 import { getQueryClient } from '../../lib/query-client';
-import { utcText } from '../link/format';
+import { utcText } from '../../lib/format';
 import { mailboxMessageQuery, mailboxQuery, type MailboxResponse } from './mail.queries';
 
 /** Plain text with its web addresses as links (React escapes everything else). */

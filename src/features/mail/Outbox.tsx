@@ -1,6 +1,6 @@
 import { QueryClientProvider, useQuery } from '@tanstack/react-query';
 import { getQueryClient } from '../../lib/query-client';
-import { utcText } from '../link/format';
+import { utcText } from '../../lib/format';
 import { outboxQuery, type OutboxResponse, type OutboxState } from './mail.queries';
 
 const STATE: Record<OutboxState, { colour: string; icon: string }> = {

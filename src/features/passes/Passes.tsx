@@ -2,7 +2,7 @@ import { Fragment, useEffect, useMemo, useState } from 'react';
 import { QueryClientProvider, keepPreviousData, useQuery } from '@tanstack/react-query';
 import { getQueryClient } from '../../lib/query-client';
 import { LevelBadge } from '../../components/LevelBadge';
-import { countText, sizeParts } from '../link/format';
+import { countText, sizeParts } from '../../lib/format';
 import { passesQuery, type PassFilters, type PassList, type PassRow } from './passes.queries';
 
 const HOUR = 3_600_000;

@@ -1,3 +1,5 @@
+import { ConfirmStrip } from '../../components/ConfirmStrip';
+import { adviceFor } from '../../lib/advice';
 import { useState } from 'react';
 import { QueryClientProvider, useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import { useForm, type UseFormRegisterReturn } from 'react-hook-form';
@@ -5,20 +7,12 @@ import { zodResolver } from '@hookform/resolvers/zod';
 import type { z } from 'zod';
 import { getQueryClient } from '../../lib/query-client';
 import { ApiError } from '../../lib/http';
-import { utcText } from '../link/format';
+import { utcText } from '../../lib/format';
 import type { Role } from '../../lib/server/db/schema';
 import { invitePerson, peopleQuery, resendInvitation, updatePerson, type Invited, type PeopleResponse, type PersonRow } from './people.queries';
 import { ROLE_CHOICES, ROLE_HINTS, invitePersonInputSchema, rolesFormSchema, type InvitePersonInput, type RolesForm } from './people.schema';
 
-function advice(err: unknown): string {
-  if (!(err instanceof ApiError)) return 'Reload the page and try again.';
-  if (err.status === 401) return 'Your session has ended: sign in again, then repeat.';
-  if (err.status === 403) return 'Only admins manage people.';
-  if (err.status === 404) return 'Reload the page: the list has changed since it was read.';
-  if (err.status === 0) return 'Check that Millrace is reachable and try again.';
-  if (err.status === 409) return '';
-  return 'Correct what the message names and try again.';
-}
+const advice = (err: unknown) => adviceFor(err, { forbidden: 'Only admins manage people.', conflict: '' });
 
 const STATUS_STYLE: Record<PersonRow['status'], { color: string; icon: string; word: string }> = {
   active: { color: '#2F8F6B', icon: '●', word: 'active' },
@@ -165,23 +159,19 @@ function DisableConfirm({ person, onDone }: { person: PersonRow; onDone: (msg: s
     },
   });
   return (
-    <div role="group" aria-label={`Confirm disabling ${person.name}`} className="flex flex-wrap items-center gap-2">
-      <span>
-        Disable {person.name}? {person.sessions > 0 ? `Their ${person.sessions} session${person.sessions === 1 ? '' : 's'} end at once; ` : ''}they cannot sign in
-        until an admin enables the account again, and their open links stop working.
-      </span>
-      <button type="button" className="btn border-warning bg-warning text-white hover:bg-[#a83320]" disabled={disable.isPending} onClick={() => disable.mutate()}>
-        {disable.isPending ? 'Disabling…' : 'Yes, disable'}
-      </button>
-      <button type="button" className="btn" onClick={() => onDone(null)} disabled={disable.isPending}>
-        Keep enabled
-      </button>
-      {disable.isError && (
-        <p role="alert" className="error-text w-full">
-          Not disabled: {disable.error.message} {advice(disable.error)}
-        </p>
-      )}
-    </div>
+    <ConfirmStrip
+      label={`Confirm disabling ${person.name}`}
+      confirm="Yes, disable"
+      pendingText="Disabling…"
+      keep="Keep enabled"
+      pending={disable.isPending}
+      onConfirm={() => disable.mutate()}
+      onKeep={() => onDone(null)}
+      failure={disable.isError ? <>Not disabled: {disable.error.message} {advice(disable.error)}</> : undefined}
+    >
+      Disable {person.name}? {person.sessions > 0 ? `Their ${person.sessions} session${person.sessions === 1 ? '' : 's'} end at once; ` : ''}they cannot sign in until an
+      admin enables the account again, and their open links stop working.
+    </ConfirmStrip>
   );
 }
 

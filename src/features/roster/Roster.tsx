@@ -1,24 +1,19 @@
+import { ConfirmStrip } from '../../components/ConfirmStrip';
+import { adviceFor } from '../../lib/advice';
 import { useState, type ReactNode } from 'react';
 import { QueryClientProvider, useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import { useForm } from 'react-hook-form';
 import { zodResolver } from '@hookform/resolvers/zod';
 import { getQueryClient } from '../../lib/query-client';
 import { ApiError } from '../../lib/http';
-import { utcText } from '../link/format';
+import { utcText } from '../../lib/format';
 import { addShift, removeShift, rosterQuery, type RosterView } from './roster.queries';
 import { createOnCallShiftInputSchema, type CreateOnCallShiftInput } from './roster.schema';
 
 type Shift = RosterView['shifts'][number];
 const FIELDS = ['userId', 'startsAt', 'endsAt'] as const;
 
-function advice(err: unknown): string {
-  if (!(err instanceof ApiError)) return 'Reload the page and try again.';
-  if (err.status === 401) return 'Your session has ended: sign in again, then repeat.';
-  if (err.status === 403) return 'Only operators and admins edit the roster.';
-  if (err.status === 404) return 'Reload the page: the roster has changed since it was read.';
-  if (err.status === 0) return 'Check that Millrace is reachable and try again.';
-  return 'Correct what the message names and try again.';
-}
+const advice = (err: unknown) => adviceFor(err, { forbidden: 'Only operators and admins edit the roster.', notFound: 'Reload the page: the roster has changed since it was read.' });
 
 /** "YYYY-MM-DD HH:MM" in UTC: 24-hour and the same whatever the browser's locale. */
 function utcField(d: Date): string {
@@ -65,22 +60,18 @@ function ShiftRow({ spacecraft, shift, canEdit, now }: { spacecraft: string; shi
       {confirming && (
         <tr>
           <td colSpan={6} className="h-auto bg-warning/10 px-3 py-2">
-            <div role="group" aria-label={`Confirm removing ${label}`} className="flex flex-wrap items-center gap-2">
-              <span>
-                Take {shift.userName} off call for {utcText(shift.startsAt).slice(0, 16)} – {utcText(shift.endsAt).slice(0, 16)} UTC?
-              </span>
-              <button type="button" className="btn border-warning bg-warning text-white hover:bg-[#a83320]" disabled={remove.isPending} onClick={() => remove.mutate()}>
-                {remove.isPending ? 'Removing…' : 'Yes, remove'}
-              </button>
-              <button type="button" className="btn" onClick={() => setConfirming(false)} disabled={remove.isPending}>
-                Keep it
-              </button>
-            </div>
-            {remove.isError && (
-              <p role="alert" className="error-text mt-1">
-                Not removed: {remove.error.message} {advice(remove.error)}
-              </p>
-            )}
+            <ConfirmStrip
+              label={`Confirm removing ${label}`}
+              confirm="Yes, remove"
+              pendingText="Removing…"
+              keep="Keep it"
+              pending={remove.isPending}
+              onConfirm={() => remove.mutate()}
+              onKeep={() => setConfirming(false)}
+              failure={remove.isError ? <>Not removed: {remove.error.message} {advice(remove.error)}</> : undefined}
+            >
+              Take {shift.userName} off call for {utcText(shift.startsAt).slice(0, 16)} – {utcText(shift.endsAt).slice(0, 16)} UTC?
+            </ConfirmStrip>
           </td>
         </tr>
       )}

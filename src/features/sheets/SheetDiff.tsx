@@ -1,7 +1,7 @@
 import type { ReactNode } from 'react';
 import { unitOfPath, type IdealKtChange, type NumberChange, type SheetDiff } from '../../lib/sheet-diff';
 import type { SheetLoop } from '../../lib/spacecraft-sheet.schema';
-import { utcText } from '../link/format';
+import { utcText } from '../../lib/format';
 
 const sig = (v: number) => (Number.isInteger(v) && Math.abs(v) < 1e9 ? String(v) : String(Number(v.toPrecision(6))));
 const signed = (v: number, digits = 1) => `${v > 0 ? '+' : v < 0 ? '−' : '±'}${Math.abs(v).toFixed(digits)}`;

@@ -5,7 +5,7 @@ import { useMutation, useQueryClient } from '@tanstack/react-query';
 import { ApiError } from '../../lib/http';
 import { postSheet, type SheetCreated } from './sheets.queries';
 import { parseJsonText, sheetUploadFormSchema, type SheetUploadForm } from './sheets.schema';
-import { utcText } from '../link/format';
+import { utcText } from '../../lib/format';
 
 function advice(err: unknown): string {
   if (!(err instanceof ApiError)) return 'Reload the page and try again.';

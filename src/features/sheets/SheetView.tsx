@@ -2,7 +2,7 @@ import type { ReactNode } from 'react';
 import { spacecraftSheetSchema, type LoopShape, type SheetLoop, type SpacecraftSheet } from '../../lib/spacecraft-sheet.schema';
 import { symmetricEigenvalues3 } from '../../lib/physics/eigen3';
 import { idealTorqueConstant } from '../../lib/physics/pump';
-import { utcText } from '../link/format';
+import { utcText } from '../../lib/format';
 import type { SheetRow } from './sheets.queries';
 
 const mm = (m: number) => (m * 1000).toFixed(m * 1000 < 10 ? 1 : 0);

@@ -4,7 +4,7 @@ import { getQueryClient } from '../../lib/query-client';
 import { sheetInForce, sheetsQuery, type SheetRow, type SheetsResponse } from './sheets.queries';
 import { SheetView, canonicalSheet } from './SheetView';
 import { SheetUpload } from './SheetUpload';
-import { utcText } from '../link/format';
+import { utcText } from '../../lib/format';
 import { diffSummary, sheetHistoryDiffs } from '../../lib/sheet-diff';
 import { SheetDiffView } from './SheetDiff';
 

@@ -4,7 +4,7 @@ import { useForm, type Path } from 'react-hook-form';
 import { zodResolver } from '@hookform/resolvers/zod';
 import { getQueryClient } from '../../lib/query-client';
 import { ApiError } from '../../lib/http';
-import { countText } from '../link/format';
+import { countText } from '../../lib/format';
 import { createStation, deleteStation, stationsQuery, updateStation, type StationList, type StationRow } from './stations.queries';
 import { createStationInputSchema, type CreateStationInput, type StationFields } from './stations.schema';
 

@@ -1,3 +1,5 @@
+import { ConfirmStrip } from '../../components/ConfirmStrip';
+import { adviceFor } from '../../lib/advice';
 import { useRef, useState } from 'react';
 import { QueryClientProvider, useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import { useForm } from 'react-hook-form';
@@ -6,7 +8,7 @@ import { getQueryClient } from '../../lib/query-client';
 import { ApiError } from '../../lib/http';
 import { createToken, revokeToken, tokensQuery, type TokenCreated, type TokenRow, type TokensResponse } from './tokens.queries';
 import { createTokenFormSchema, type CreateTokenForm } from './tokens.schema';
-import { utcText } from '../link/format';
+import { utcText } from '../../lib/format';
 
 interface SpacecraftTokens {
   key: string;
@@ -14,14 +16,7 @@ interface SpacecraftTokens {
   initial: TokensResponse;
 }
 
-function advice(err: unknown): string {
-  if (!(err instanceof ApiError)) return 'Reload the page and try again.';
-  if (err.status === 401) return 'Your session has ended: sign in again, then repeat.';
-  if (err.status === 403) return 'Only admins manage ingest tokens.';
-  if (err.status === 404) return 'Reload the page: the list has changed since it was read.';
-  if (err.status === 0) return 'Check that Millrace is reachable and try again.';
-  return 'Correct what the message names and try again.';
-}
+const advice = (err: unknown) => adviceFor(err, { forbidden: 'Only admins manage ingest tokens.' });
 
 function NewToken({ created, onDone }: { created: TokenCreated; onDone: () => void }) {
   const input = useRef<HTMLInputElement>(null);
@@ -98,27 +93,18 @@ function TokenLine({ spacecraft, token }: { spacecraft: string; token: TokenRow 
       {confirming && (
         <tr>
           <td colSpan={6} className="h-auto bg-warning/10 px-3 py-2">
-            <div role="group" aria-label={`Confirm revoking ${token.label}`} className="flex flex-wrap items-center gap-2">
-              <span>
-                Revoke “{token.label}” (····{token.token_hint})? Whatever posts telemetry with it is refused from then on; this cannot be undone.
-              </span>
-              <button
-                type="button"
-                className="btn border-warning bg-warning text-white hover:bg-[#a83320]"
-                disabled={revoke.isPending}
-                onClick={() => revoke.mutate()}
-              >
-                {revoke.isPending ? 'Revoking…' : 'Yes, revoke'}
-              </button>
-              <button type="button" className="btn" onClick={() => setConfirming(false)} disabled={revoke.isPending}>
-                Keep it
-              </button>
-            </div>
-            {revoke.isError && (
-              <p role="alert" className="error-text mt-1">
-                Not revoked: {revoke.error.message} {advice(revoke.error)}
-              </p>
-            )}
+            <ConfirmStrip
+              label={`Confirm revoking ${token.label}`}
+              confirm="Yes, revoke"
+              pendingText="Revoking…"
+              keep="Keep it"
+              pending={revoke.isPending}
+              onConfirm={() => revoke.mutate()}
+              onKeep={() => setConfirming(false)}
+              failure={revoke.isError ? <>Not revoked: {revoke.error.message} {advice(revoke.error)}</> : undefined}
+            >
+              Revoke “{token.label}” (····{token.token_hint})? Whatever posts telemetry with it is refused from then on; this cannot be undone.
+            </ConfirmStrip>
           </td>
         </tr>
       )}

@@ -1,6 +1,6 @@
 import type { ReactNode } from 'react';
 import type { StoredUploadReport, UploadReport } from './uploads.queries';
-import { APID_NAMES, countText } from '../link/format';
+import { APID_NAMES, countText } from '../../lib/format';
 import { Size } from '../link/Qty';
 
 /** The report of an upload or a re-ingest, in one shape. */

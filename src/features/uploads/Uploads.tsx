@@ -8,7 +8,7 @@ import { reingestUpload, storedReport, uploadsQuery, type UploadReport, type Upl
 import { passUploadFormSchema, type PassUploadForm } from './uploads.schema';
 import { uploadPassFile } from './upload-pass';
 import { IngestReportView, figuresOf } from './IngestReport';
-import { countText, utcText } from '../link/format';
+import { countText, utcText } from '../../lib/format';
 import { Size } from '../link/Qty';
 
 interface Option {

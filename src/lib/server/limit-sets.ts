@@ -14,26 +14,7 @@ export async function insertLimitSet(db: Db, spacecraftId: number, input: LimitS
     .values({ spacecraft_id: spacecraftId, version, name: input.name, notes: input.notes, status, created_by: actorId, activated_at: status === 'active' ? new Date() : null })
     .returning('id')
     .executeTakeFirstOrThrow();
-  if (input.rules.length) {
-    await db
-      .insertInto('limit_rule')
-      .values(
-        input.rules.map((r) => ({
-          limit_set_id: set.id,
-          quantity: r.quantity,
-          loop_id: r.loopId,
-          caution_high: r.cautionHigh,
-          warning_high: r.warningHigh,
-          caution_low: r.cautionLow,
-          warning_low: r.warningLow,
-          clear_high: r.clearHigh,
-          clear_low: r.clearLow,
-          persistence: r.persistence,
-          rationale: r.rationale,
-        })),
-      )
-      .execute();
-  }
+  await insertRules(db, set.id, input.rules);
   await insertAuditEntry(db, { actorId, action: 'limit-set.create', targetType: 'limit_set', targetId: set.id, detail: { spacecraftId, version, status, rules: input.rules.length } });
   return { id: set.id, version };
 }
@@ -101,12 +82,17 @@ export function listLimitSets(db: Db, spacecraftId: number) {
 export async function replaceLimitSetRules(trx: Transaction<Database>, id: number, input: LimitSetInput): Promise<void> {
   await trx.updateTable('limit_set').set({ name: input.name, notes: input.notes }).where('id', '=', id).execute();
   await trx.deleteFrom('limit_rule').where('limit_set_id', '=', id).execute();
-  if (!input.rules.length) return;
-  await trx
+  await insertRules(trx, id, input.rules);
+}
+
+/** Store a set's rules, in their order. */
+async function insertRules(db: Db, setId: number, rules: LimitSetInput['rules']): Promise<void> {
+  if (!rules.length) return;
+  await db
     .insertInto('limit_rule')
     .values(
-      input.rules.map((r) => ({
-        limit_set_id: id,
+      rules.map((r) => ({
+        limit_set_id: setId,
         quantity: r.quantity,
         loop_id: r.loopId,
         caution_high: r.cautionHigh,

@@ -18,6 +18,7 @@ import { passQuerySchema } from '../../features/passes/passes.schema';
 import { liveQuerySchema, passNoteInputSchema } from '../../features/pass-watch/pass-watch.schema';
 import { createOnCallShiftInputSchema } from '../../features/roster/roster.schema';
 import { backtestInputSchema, createDraftInputSchema, limitSetListQuerySchema, returnInputSchema, reviewCommentInputSchema } from '../../features/limit-bench/limit-bench.schema';
+import { createTokenFormSchema } from '../../features/tokens/tokens.schema';
 import { conclusionInputSchema, evidenceQuerySchema, noteInputSchema, rawQuerySchema } from '../../features/casefile/casefile.schema';
 
 /*
@@ -222,7 +223,7 @@ function buildRegistry(): OpenAPIRegistry {
     { method: 'get', route: '/api/spacecraft/[key]/tokens', tag: 'Ingest', summary: 'Ingest tokens of a spacecraft', params: key, ok: { status: 200, description: 'Newest first, never a hash.', schema: z.object({ tokens: z.array(json('A token: label, last four characters, use and revocation.')) }) }, errors: [401, 403, 404] },
     {
       method: 'post', route: '/api/spacecraft/[key]/tokens', tag: 'Ingest', summary: 'Create an ingest token', description: 'The clear token is in this answer only.',
-      params: key, body: { schema: z.object({ label: z.string().min(1).max(80) }) }, ok: { status: 201, description: 'Created.', schema: z.object({ id: z.number().int(), token: z.string(), label: z.string(), spacecraft: z.string() }) }, errors: [400, 401, 403, 404],
+      params: key, body: { schema: createTokenFormSchema }, ok: { status: 201, description: 'Created.', schema: z.object({ id: z.number().int(), token: z.string(), label: z.string(), spacecraft: z.string() }) }, errors: [400, 401, 403, 404],
     },
     { method: 'delete', route: '/api/spacecraft/[key]/tokens/[id]', tag: 'Ingest', summary: 'Revoke an ingest token', params: keyId, ok: { status: 200, description: 'Revoked.', schema: z.object({ revoked: z.number().int() }) }, errors: [401, 403, 404] },
     // Telemetry in.
