@@ -8,8 +8,8 @@ import { db } from '../src/lib/server/db';
 import { createIngestToken } from '../src/lib/server/ingest-tokens';
 import { findSheetInForce } from '../src/lib/server/spacecraft';
 import { config } from '../src/lib/server/config';
+import { BACKFILL_HOURS, BACKFILL_SCENARIOS, SCENARIOS } from './demo-fleet';
 
-const SCENARIOS: Record<string, string> = { 'MR-1': 'ingest/scenarios/demo.json', 'MR-2': 'ingest/scenarios/healthy.json', 'MR-3': 'ingest/scenarios/healthy.json' };
 const LABEL = 'demo feed';
 
 const file = path.resolve('.data/demo-feed.json');
@@ -19,19 +19,27 @@ const RESUME_WITHIN_MS = 6 * 3600_000;
 // On a database without any telemetry, the feed first plays back the last BACKFILL_HOURS of the
 // same timeline (as if the recorder were dumped), so that the Fleet, Trips and a casefile have
 // something to show at once instead of waiting for the first pass; real time then carries on.
-const BACKFILL_HOURS = 2;
 let startedAtMs = Math.floor(Date.now() / 1000) * 1000;
+// a resumed timeline keeps the scenario each spacecraft flew
+let previousScenario = new Map<string, string>();
 try {
-  const previous = JSON.parse(fs.readFileSync(file, 'utf8')) as { spacecraft?: { startedAtMs?: number }[] };
+  const previous = JSON.parse(fs.readFileSync(file, 'utf8')) as { spacecraft?: { key?: string; scenario?: string; startedAtMs?: number }[] };
   const was = previous.spacecraft?.[0]?.startedAtMs;
-  if (was && Date.now() - was < RESUME_WITHIN_MS) startedAtMs = was;
+  if (was && Date.now() - was < RESUME_WITHIN_MS) {
+    startedAtMs = was;
+    previousScenario = new Map((previous.spacecraft ?? []).flatMap((s) => (s.key && s.scenario && fs.existsSync(s.scenario) ? [[s.key, s.scenario] as [string, string]] : [])));
+  }
 } catch {
   // first start
 }
 const empty = !(await db.selectFrom('loop_sample').select('spacecraft_id').limit(1).executeTakeFirst());
 // with nothing stored there is no earlier timeline to stay consistent with
 const backfill = empty && process.argv.length <= 2;
-if (backfill) startedAtMs = Math.floor(Date.now() / 1000) * 1000 - BACKFILL_HOURS * 3600_000;
+if (backfill) {
+  startedAtMs = Math.floor(Date.now() / 1000) * 1000 - BACKFILL_HOURS * 3600_000;
+  previousScenario = new Map();
+}
+const scenarioOf = (key: string) => previousScenario.get(key) ?? path.resolve((backfill ? BACKFILL_SCENARIOS : SCENARIOS)[key] ?? 'ingest/scenarios/healthy.json');
 const fleet = await db.selectFrom('spacecraft').select(['id', 'key']).orderBy('key').execute();
 const spacecraft = [];
 for (const sc of fleet) {
@@ -39,7 +47,7 @@ for (const sc of fleet) {
   if (!sheet) continue;
   await db.updateTable('ingest_token').set({ revoked_at: new Date() }).where('spacecraft_id', '=', sc.id).where('label', '=', LABEL).where('revoked_at', 'is', null).execute();
   const { token } = await createIngestToken(db, sc.id, LABEL, null);
-  spacecraft.push({ key: sc.key, token, sheet: sheet.sheet, scenario: path.resolve(SCENARIOS[sc.key] ?? 'ingest/scenarios/healthy.json'), startedAtMs });
+  spacecraft.push({ key: sc.key, token, sheet: sheet.sheet, scenario: scenarioOf(sc.key), startedAtMs });
 }
 // The feed predicts its passes with the same element sets and stations the app stores passes from.
 const stations = await db.selectFrom('ground_station').select(['key', 'latitude_deg', 'longitude_deg', 'altitude_m', 'elevation_mask_deg']).orderBy('key').execute();

@@ -48,6 +48,14 @@ import type { Quat } from './quaternion';
 import { Rng } from './rng';
 import { LoopThermal, defaultThermalParameters } from './thermal';
 
+/**
+ * NdFeB remanence falls by about 0.1 % per kelvin (a typical datasheet coefficient, from memory): the
+ * pump's field, and with it the Lorentz pressure and the back-EMF, weakens as the magnets warm. The
+ * gap's Hartmann loss (∝ B²) is left at its 20 °C value; the ground's fit absorbs it in its friction terms.
+ */
+const REMANENCE_COEFF_PER_K = 0.001;
+const fieldFactor = (magnet_C: number) => 1 - REMANENCE_COEFF_PER_K * (magnet_C - 20);
+
 /** Integration step, s (100 Hz). */
 export const STEP_S = 0.01;
 /** Integration steps per housekeeping sample. */
@@ -453,7 +461,7 @@ export class SpacecraftSim {
       const vMean = l.sumV / n;
       const te = l.thermal.electrode_C;
       const rElectrode = l.r0 * (1 + COPPER_ALPHA * (te - 20)) * l.rFactor;
-      const voltage = iMean * (rElectrode + l.rGap) + backEmf(vMean, l.sheet);
+      const voltage = iMean * (rElectrode + l.rGap) + backEmf(vMean, l.sheet) * fieldFactor(l.thermal.magnet_C);
       l.iMeas = iMean + CURRENT_NOISE_A * this.rng.normal();
       l.vMeas = vMean + FLOW_NOISE_M_S * this.rng.normal();
       const pressure = l.sumP / n + PRESSURE_NOISE_PA * this.rng.normal();
@@ -568,7 +576,7 @@ export class SpacecraftSim {
       const target = l.enabled ? l.cmd : 0;
       l.current = target + (l.current - target) * this.driverDecay + DRIVER_NOISE_A * this.rng.normal();
       if (!l.enabled && Math.abs(l.current) < 3 * DRIVER_NOISE_A) l.current = 0;
-      this.inputs.pumpPressure_Pa[l.index] = l.eta * l.kp * l.current;
+      this.inputs.pumpPressure_Pa[l.index] = l.eta * fieldFactor(l.thermal.magnet_C) * l.kp * l.current;
       l.v0 = y[7 + l.index]!;
       if (l.burst === null && t0 >= l.nextBurstS) {
         l.burst = {

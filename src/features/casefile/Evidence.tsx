@@ -119,6 +119,8 @@ function EvidenceView({ tripId, initialJson, initialParams, initialShow, initial
       effectiveness: {
         lines: [
           L('effectiveness', 'Effectiveness', '', HUES.gallium, { e: s.effectiveness?.e }),
+          // the drift statistics run on the magnet-compensated series, drawn with them
+          L('compensated_effectiveness', 'Compensated (drift input)', '', c.muted, { width: 1, dash: [2, 2] }),
           L('drift_ewma', 'EWMA', '', c.second, { width: 1.5 }),
           L('drift_ewma_ucl', 'EWMA upper limit', '', c.muted, { dash: [3, 3], width: 1 }),
           L('drift_ewma_lcl', 'EWMA lower limit', '', c.muted, { dash: [3, 3], width: 1 }),

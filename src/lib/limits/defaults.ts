@@ -10,8 +10,8 @@ export const DEFAULT_RULES: LimitRuleInput[] = [
     rationale: 'Invented for the demo: healthy conduction-pumped loops reach about 0.6–0.8 of the ideal I·B·a·R; three consecutive 60 s windows below 0.55 is a loss worth a look.',
   },
   {
-    quantity: 'drift_cusum_lo', loopId: null, cautionHigh: 7, warningHigh: 12, cautionLow: null, warningLow: null, clearHigh: 2, clearLow: null, persistence: 1,
-    rationale: 'Tabular CUSUM with k = 0.5σ (NIST/SEMATECH e-Handbook §6.3.2.3); h = 7σ instead of the textbook 4–5σ because window estimates are mildly correlated and the baseline is finite: by Monte-Carlo runs on the analysis core this gives thousands of windows between false alarms.',
+    quantity: 'drift_cusum_lo', loopId: null, cautionHigh: 12, warningHigh: 20, cautionLow: null, warningLow: null, clearHigh: 3, clearLow: null, persistence: 1,
+    rationale: 'Tabular CUSUM with k = 0.5σ (NIST/SEMATECH e-Handbook §6.3.2.3) on the magnet-compensated effectiveness against a one-hour baseline. The textbook 4–5σ, and even 7σ, cry wolf here: on healthy simulated flight (4 seeds × 4 loops × 4 h, 2,896 windows) the window estimate wanders with the operating point; 2 of 16 series crossed 7σ, none 10σ (worst 7.9σ). A 2 % loss of torque constant (about 5σ per window) still reaches 12σ in three windows.',
   },
   {
     quantity: 'electrode_temp_mean_c', loopId: null, cautionHigh: 55, warningHigh: 70, cautionLow: null, warningLow: null, clearHigh: 50, clearLow: null, persistence: 2,

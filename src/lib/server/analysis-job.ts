@@ -11,7 +11,7 @@ import { ensurePartitionsAhead } from './telemetry-store';
 /** Analysis window, s. */
 export const WINDOW_S = 60;
 /**
- * Windows of effectiveness that form a loop's drift baseline (from the sheet's effective date on).
+ * Windows of (magnet-compensated) effectiveness that form a loop's drift baseline (from the sheet's effective date on).
  * An hour: with 30 windows the baseline mean alone is off by ~0.2σ, enough for false CUSUM alarms.
  */
 export const BASELINE_WINDOWS = 60;
@@ -64,11 +64,11 @@ function pieces(from: number, to: number, sheets: SheetRow[]): { from: number; t
   return out;
 }
 
-/** Recompute the drift statistics of a loop's effectiveness from `fromS` on (EWMA and CUSUM against its baseline). */
+/** Recompute the drift statistics of a loop's magnet-compensated effectiveness from `fromS` on (EWMA and CUSUM against its baseline). */
 async function updateDrift(trx: Transaction<Database>, spacecraftId: number, loopId: number, sheetStartS: number, fromS: number): Promise<number> {
   const rows = await trx
     .selectFrom('loop_window')
-    .select(['window_start', 'effectiveness'])
+    .select(['window_start', 'compensated_effectiveness'])
     .where('spacecraft_id', '=', spacecraftId)
     .where('loop_id', '=', loopId)
     .where('window_start', '>=', new Date(sheetStartS * 1000))
@@ -76,7 +76,8 @@ async function updateDrift(trx: Transaction<Database>, spacecraftId: number, loo
     .execute();
   if (!rows.length) return 0;
   const t = Float64Array.from(rows, (r) => r.window_start.getTime() / 1000);
-  const v = Float64Array.from(rows, (r) => (r.effectiveness === null ? Number.NaN : r.effectiveness));
+  // on the magnet-compensated series: a change the magnets' temperature explains is not a drift
+  const v = Float64Array.from(rows, (r) => (r.compensated_effectiveness === null ? Number.NaN : r.compensated_effectiveness));
   let end = 0;
   for (let seen = 0; end < v.length && seen < BASELINE_WINDOWS; end++) if (Number.isFinite(v[end]!)) seen++;
   const base = baselineStats(v, 0, end);

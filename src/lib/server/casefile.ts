@@ -167,8 +167,8 @@ interface Baseline {
 }
 
 /**
- * The drift baseline as the analysis job forms it: the first BASELINE_WINDOWS windows with an
- * effectiveness from the effective date of the sheet in force now. When those are not there yet,
+ * The drift baseline as the analysis job forms it: the first BASELINE_WINDOWS windows with a
+ * magnet-compensated effectiveness from the effective date of the sheet in force now. When those are not there yet,
  * the (up to BASELINE_WINDOWS) windows with an effectiveness before the trip's onset stand in.
  */
 async function findBaseline(db: Db, trip: Trip, loopId: number): Promise<Baseline> {
@@ -176,27 +176,27 @@ async function findBaseline(db: Db, trip: Trip, loopId: number): Promise<Baselin
   const since = current?.effectiveFrom ?? new Date(0);
   const first = await db
     .selectFrom('loop_window')
-    .select(['window_start', 'effectiveness'])
+    .select(['window_start', 'compensated_effectiveness'])
     .where('spacecraft_id', '=', trip.spacecraft_id)
     .where('loop_id', '=', loopId)
     .where('window_start', '>=', since)
-    .where('effectiveness', 'is not', null)
+    .where('compensated_effectiveness', 'is not', null)
     .orderBy('window_start')
     .limit(BASELINE_WINDOWS)
     .execute();
-  const pick = (rows: { window_start: Date; effectiveness: number | null }[], source: Baseline['source']): Baseline => {
-    const v = rows.map((r) => r.effectiveness ?? Number.NaN);
+  const pick = (rows: { window_start: Date; compensated_effectiveness: number | null }[], source: Baseline['source']): Baseline => {
+    const v = rows.map((r) => r.compensated_effectiveness ?? Number.NaN);
     const ts = rows.map((r) => r.window_start.getTime() / 1000);
     return { source, stats: baselineStats(v), from: Math.min(...ts), to: Math.max(...ts) + WINDOW_S };
   };
   if (first.length >= BASELINE_WINDOWS) return pick(first, 'drift-baseline');
   const before = await db
     .selectFrom('loop_window')
-    .select(['window_start', 'effectiveness'])
+    .select(['window_start', 'compensated_effectiveness'])
     .where('spacecraft_id', '=', trip.spacecraft_id)
     .where('loop_id', '=', loopId)
     .where('window_start', '<', trip.onset_at)
-    .where('effectiveness', 'is not', null)
+    .where('compensated_effectiveness', 'is not', null)
     .orderBy('window_start', 'desc')
     .limit(BASELINE_WINDOWS)
     .execute();
@@ -237,16 +237,16 @@ async function estimateOnset(db: Db, trip: Trip, loopId: number, base: Baseline)
   const end = Math.max(trip.last_at.getTime(), trip.cleared_at?.getTime() ?? 0) + WINDOW_S * 1000;
   const rows = await db
     .selectFrom('loop_window')
-    .select(['window_start', 'effectiveness'])
+    .select(['window_start', 'compensated_effectiveness'])
     .where('spacecraft_id', '=', trip.spacecraft_id)
     .where('loop_id', '=', loopId)
     .where('window_start', '>=', new Date(base.from * 1000))
     .where('window_start', '<', new Date(end))
-    .where('effectiveness', 'is not', null)
+    .where('compensated_effectiveness', 'is not', null)
     .orderBy('window_start')
     .execute();
   const t = rows.map((r) => r.window_start.getTime() / 1000);
-  const v = rows.map((r) => r.effectiveness ?? Number.NaN);
+  const v = rows.map((r) => r.compensated_effectiveness ?? Number.NaN);
   const d = detectDrift(t, v, base.stats);
   if (!d.detected || d.signalTime_s === null || d.onsetTime_s === null) return fallback;
   const sums = d.direction === 'up' ? d.cusum.sHi : d.cusum.sLo;
@@ -511,7 +511,7 @@ function readingsOf(ev: Omit<EvidenceResponse, 'readings'>, rows: LoopRow[], bas
   const eff = beforeAfter(rows, 'effectiveness', base, baseRows);
   const baseText =
     b.source === 'drift-baseline'
-      ? `the drift baseline (the first ${b.n} windows with an effectiveness from the sheet's effective date, ${hhmm(b.from!)}–${hhmm(b.to!)})`
+      ? `the drift baseline (the first ${b.n} windows with a magnet-compensated effectiveness from the sheet's effective date, ${hhmm(b.from!)}–${hhmm(b.to!)})`
       : b.source === 'before-onset'
         ? `the ${b.n} windows before the onset (the drift baseline needs ${b.required} windows and is not formed yet)`
         : '';
@@ -527,7 +527,7 @@ function readingsOf(ev: Omit<EvidenceResponse, 'readings'>, rows: LoopRow[], bas
   }
   const lo = rows.filter((r) => fin(r.drift_cusum_lo));
   if (!lo.length) {
-    out.drift = b.source === 'drift-baseline' ? 'No drift statistics are stored in this span.' : `Drift statistics start once the baseline of ${b.required} windows with an effectiveness is formed (${b.n} so far before the onset).`;
+    out.drift = b.source === 'drift-baseline' ? 'No drift statistics are stored in this span.' : `Drift statistics start once the baseline of ${b.required} windows with a compensated effectiveness is formed (${b.n} so far before the onset).`;
   } else {
     const peak = lo.reduce((m, r) => (r.drift_cusum_lo! > m.drift_cusum_lo! ? r : m));
     const first = lo.find((r) => r.drift_cusum_lo! > ev.cusumDecision_sigma);

@@ -6,7 +6,9 @@
  */
 
 import { describe, expect, it } from 'vitest';
-import { analyseSpan } from '../../../src/lib/physics/analysis';
+import { analyseSpan, baselineStats, detectDrift } from '../../../src/lib/physics/analysis';
+import { DEFAULT_RULES } from '../../../src/lib/limits/defaults';
+import { BASELINE_WINDOWS } from '../../../src/lib/server/analysis-job';
 import type { SpanAnalysis } from '../../../src/lib/physics/analysis';
 import { DEFAULT_EFFECTIVENESS } from '../../../ingest/sim/spacecraft-sim';
 import type { DecodedSpan } from './feed-helpers';
@@ -99,6 +101,12 @@ describe('healthy scenario: three simulated hours inside every caution level of 
       }
       expect(maxI, key).toBeLessThan(LIMITS.measuredCurrent_a);
       expect(maxTe, key).toBeLessThan(LIMITS.electrodeTemp_c);
+      // the downward drift CUSUM, formed as the analysis job forms it (on the magnet-compensated series), stays below the default caution
+      const v = Float64Array.from(l.windows, (w) => w.compensatedEffectiveness ?? Number.NaN);
+      const base = baselineStats(v, 0, BASELINE_WINDOWS);
+      const drift = detectDrift(Float64Array.from(l.windows, (w) => w.start_s), v, base);
+      const cusumCaution = DEFAULT_RULES.find((r) => r.quantity === 'drift_cusum_lo')!.cautionHigh!;
+      expect(Math.max(...drift.cusum.sLo) / base.sd, key).toBeLessThan(cusumCaution);
     }
   };
 

@@ -211,7 +211,7 @@ describe('physical faults show up in the telemetry', () => {
     expect(after / before).toBeCloseTo(2, 1);
   });
 
-  it('thermal-degradation: the faulty loop runs at other temperatures, the other loops are untouched', () => {
+  it('thermal-degradation: the faulty loop runs at other temperatures; the others barely feel it (only through its weaker warm magnets and the attitude control)', () => {
     const sheet = loadSheet('MR-3');
     const faulty = loadScenario('thermal-degradation');
     const healthy = { ...faulty, faults: [] };
@@ -222,7 +222,8 @@ describe('physical faults show up in the telemetry', () => {
     };
     const a = temps(faulty), b = temps(healthy);
     const last = (x: typeof a, id: number) => x.loops.filter((l) => l.loopId === id).at(-1)!;
-    expect(last(a, 1)).toEqual(last(b, 1));
+    expect(Math.abs(last(a, 1).electrodeTemp_c - last(b, 1).electrodeTemp_c)).toBeLessThan(0.01);
+    expect(Math.abs(a.sim.electrodeTemperature(1) - b.sim.electrodeTemperature(1))).toBeLessThan(0.005);
     expect(Math.abs(a.sim.electrodeTemperature(0) - b.sim.electrodeTemperature(0))).toBeGreaterThan(0.05);
   });
 });

@@ -5,6 +5,8 @@ import { describe, expect, it } from 'vitest';
 import { FAULT_KINDS, ScenarioError, checkScenarioAgainstSheet, loadScenarioFile, parseScenario } from '../../../ingest/scenario.schema';
 import { effectivenessAt, factorAt, gyroBiasAt, pulsationsAt, rampFraction } from '../../../ingest/sim/faults';
 import { INGEST_DIR, loadScenario, loadSheet } from './feed-helpers';
+import { BACKFILL_HOURS, BACKFILL_SCENARIOS } from '../../../ingest/demo-fleet';
+import { BASELINE_WINDOWS } from '../../../src/lib/server/analysis-job';
 
 function problemsOf(input: unknown): string[] {
   try {
@@ -41,6 +43,17 @@ describe('scenario files', () => {
     const kinds = demo.faults.map((f) => f.kind).sort();
     expect(kinds).toEqual(['pulsation', 'torque-constant-loss']);
     for (const f of demo.faults) expect(f.start_s).toBeLessThan(600);
+  });
+
+  it('the first start plays back the same faults after a healthy baseline hour, early enough to trip inside the playback', () => {
+    const demo = loadScenario('demo');
+    const recorded = loadScenario('demo-recorded');
+    expect(BACKFILL_SCENARIOS['MR-1']).toBe('ingest/scenarios/demo-recorded.json');
+    expect(recorded.faults.map(({ start_s: _, ...f }) => f)).toEqual(demo.faults.map(({ start_s: _, ...f }) => f));
+    const loss = recorded.faults.find((f) => f.kind === 'torque-constant-loss')!;
+    // the drift baseline is the first BASELINE_WINDOWS windows of data; the demo scenario trips within ten minutes of its start
+    for (const f of recorded.faults) expect(f.start_s).toBeGreaterThanOrEqual(BASELINE_WINDOWS * 60 + 5 * 60);
+    expect(loss.start_s + 10 * 60).toBeLessThanOrEqual(BACKFILL_HOURS * 3600 - 15 * 60);
   });
 });
 
