@@ -286,6 +286,9 @@ const S = {
   tN: 27, tS: 28, tT: 29, tSS: 30, tST: 31, size: 32,
 } as const;
 
+/** The count slots: with every sample finite, each equals the window's sample count. */
+const COUNT_SLOTS = [S.nI, S.nH, S.nTau, S.nP, S.nV, S.nR, S.nJ, S.nCmd, S.nMag, S.nDp, S.nTf, S.tN] as const;
+
 /**
  * One pass over samples [a, b) of a loop for its window sums, into `acc` (slots S). The fast pass assumes
  * finite samples (the telemetry contract rejects non-finite values); if any sum comes out non-finite the
@@ -314,7 +317,7 @@ function windowSums(L: LoopInput, h: Float64Array, hdot: Float64Array, tauLoss: 
     acc[S.I] = sI; acc[S.II] = sII; acc[S.H] = sH; acc[S.AbsH] = sAbsH; acc[S.maxAbsH] = maxAbsH; acc[S.Tau] = sTau; acc[S.AbsTau] = sAbsTau;
     acc[S.P] = sP; acc[S.V] = sV; acc[S.Cmd] = sCmd; acc[S.Mag] = sMag; acc[S.Dp] = sDp; acc[S.Tf] = sTf;
     acc[S.rxy] = rxy; acc[S.rxx] = sII; acc[S.J] = sJ; acc[S.tS] = tS; acc[S.tT] = tT; acc[S.tSS] = tSS; acc[S.tST] = tST;
-    for (const k of [S.nI, S.nH, S.nTau, S.nP, S.nV, S.nR, S.nJ, S.nCmd, S.nMag, S.nDp, S.nTf, S.tN]) acc[k] = cnt;
+    for (const k of COUNT_SLOTS) acc[k] = cnt;
     return acc;
   }
   acc.fill(0);

@@ -208,15 +208,7 @@ export class NormalEquations {
     if (this.clusterLength > 1) {
       // rows go to the current block only; the totals are the blocks' sum (formed in solve)
       const stride = p * p + p;
-      if (this.inCluster === 0) {
-        if ((this.nClusters + 1) * stride > this.clusters.length) {
-          const grown = new Float64Array(this.clusters.length * 2);
-          grown.set(this.clusters);
-          this.clusters = grown;
-        }
-        this.clusters.fill(0, this.nClusters * stride, (this.nClusters + 1) * stride);
-        this.nClusters++;
-      }
+      if (this.inCluster === 0) this.openCluster(stride);
       this.inCluster = (this.inCluster + 1) % this.clusterLength;
       m = this.clusters;
       base = (this.nClusters - 1) * stride;
@@ -248,25 +240,29 @@ export class NormalEquations {
     let m: Float64Array = this.xtx, base = 0, yOff = 0, xy: Float64Array = this.xty;
     if (this.clusterLength > 1) {
       if (this.inCluster !== 0 || rows > this.clusterLength) throw new Error('NormalEquations.addBlock3: a block is one whole cluster');
-      const stride = 12;
-      if ((this.nClusters + 1) * stride > this.clusters.length) {
-        const grown = new Float64Array(this.clusters.length * 2);
-        grown.set(this.clusters);
-        this.clusters = grown;
-      }
+      this.openCluster(12);
       m = xy = this.clusters;
-      base = this.nClusters * stride;
+      base = (this.nClusters - 1) * 12;
       yOff = base + 9;
-      this.nClusters++;
-      // a short block ends the clustering: later rows would start a new cluster anyway
+      // a short block is a cluster still open to add(); a whole one is closed
       this.inCluster = rows === this.clusterLength ? 0 : rows;
-      m.fill(0, base, base + stride);
     }
     // upper triangle of the row-major 3×3 block, as add() fills it
     m[base] = m[base]! + s00; m[base + 1] = m[base + 1]! + s01; m[base + 2] = m[base + 2]! + s02;
     m[base + 4] = m[base + 4]! + s11; m[base + 5] = m[base + 5]! + s12;
     m[base + 8] = m[base + 8]! + s22;
     xy[yOff] = xy[yOff]! + t0; xy[yOff + 1] = xy[yOff + 1]! + t1; xy[yOff + 2] = xy[yOff + 2]! + t2;
+  }
+
+  /** Starts a zeroed block of `stride` sums for the next cluster, growing the store when full. */
+  private openCluster(stride: number): void {
+    if ((this.nClusters + 1) * stride > this.clusters.length) {
+      const grown = new Float64Array(this.clusters.length * 2);
+      grown.set(this.clusters);
+      this.clusters = grown;
+    }
+    this.clusters.fill(0, this.nClusters * stride, (this.nClusters + 1) * stride);
+    this.nClusters++;
   }
 
   private gatherTotals(): void {

@@ -3,6 +3,7 @@ import type { Database } from './db/schema';
 import { evaluateRule, initialRuleState, type Point, type Rule, type RuleState, type TripEvent } from '../limits/evaluate';
 import { quantityInfo, type QuantityInfo } from '../limits/quantities';
 import { unixSecondsOf } from './analysis-store';
+import { formatUtc } from '../format';
 
 type Db = Kysely<Database> | Transaction<Database>;
 
@@ -17,6 +18,11 @@ export interface StoredRule extends Rule {
 
 /** Body-scope rules use this loop id in cursors. */
 export const BODY = -1;
+
+/** The cursor loop ids a rule is judged on: the body, its one loop, or every loop of the sheet. */
+function ruleTargets(info: QuantityInfo, loopId: number | null, loopIds: readonly number[]): readonly number[] {
+  return info.scope === 'body' ? [BODY] : loopId !== null ? [loopId] : loopIds;
+}
 
 /** The rules of the spacecraft's active limit set. */
 export async function findActiveRules(db: Db, spacecraftId: number): Promise<StoredRule[]> {
@@ -150,8 +156,7 @@ export async function evaluateActiveLimits(
   for (const rule of rules) {
     const info = quantityInfo(rule.quantity);
     if (!info) continue;
-    const targets = info.scope === 'body' ? [BODY] : rule.loopId !== null ? [rule.loopId] : [...loopIds];
-    for (const loopId of targets) {
+    for (const loopId of ruleTargets(info, rule.loopId, loopIds)) {
       const cur = await trx.selectFrom('rule_cursor').select(['evaluated_through', 'state']).where('rule_id', '=', rule.id).where('loop_id', '=', loopId).executeTakeFirst();
       const fromMs = cur ? cur.evaluated_through.getTime() : opts.throughMs - (opts.lookbackMs ?? 24 * 3600_000);
       const points = info.source === 'link' && info.key === 'data_age_s' ? (opts.extraPoints?.[info.key] ?? []).filter((p) => p.t > fromMs) : await loadQuantitySeries(trx, spacecraftId, info, loopId, fromMs, opts.throughMs);
@@ -208,31 +213,28 @@ export async function handOverLimits(
     if (!seen || c.evaluated_through > seen) through.set(key, c.evaluated_through);
   }
   const rules = await trx.selectFrom('limit_rule').select(['id', 'quantity', 'loop_id']).where('limit_set_id', '=', active.id).orderBy('id').execute();
-  const seeded: Handover['seeded'] = [];
+  const cursors: { rule_id: number; loop_id: number; evaluated_through: Date; state: string }[] = [];
   for (const rule of rules) {
     const info = quantityInfo(rule.quantity);
     if (!info) continue;
-    const targets = info.scope === 'body' ? [BODY] : rule.loop_id !== null ? [rule.loop_id] : [...loopIds];
-    for (const loopId of targets) {
+    for (const loopId of ruleTargets(info, rule.loop_id, loopIds)) {
       const t = through.get(`${rule.quantity}:${loopId}`);
-      if (!t) continue;
-      await trx
-        .insertInto('rule_cursor')
-        .values({ rule_id: rule.id, loop_id: loopId, evaluated_through: t, state: JSON.stringify(initialRuleState()) })
-        .onConflict((oc) => oc.columns(['rule_id', 'loop_id']).doNothing())
-        .execute();
-      seeded.push({ ruleId: rule.id, loopId, through: t.toISOString() });
+      if (t) cursors.push({ rule_id: rule.id, loop_id: loopId, evaluated_through: t, state: JSON.stringify(initialRuleState()) });
     }
   }
+  if (cursors.length) await trx.insertInto('rule_cursor').values(cursors).onConflict((oc) => oc.columns(['rule_id', 'loop_id']).doNothing()).execute();
   const closed = await trx
     .updateTable('trip')
-    .set({ cleared_at: at, cleared_note: `Closed at the handover: limit set v${retired.version} retired and v${active.version} judges this quantity from ${at.toISOString().slice(0, 19).replace('T', ' ')} UTC.` })
+    .set({ cleared_at: at, cleared_note: `Closed at the handover: limit set v${retired.version} retired and v${active.version} judges this quantity from ${formatUtc(at)} UTC.` })
     .where('spacecraft_id', '=', spacecraftId)
     .where('limit_set_id', '=', retired.id)
     .where('cleared_at', 'is', null)
     .returning('id')
     .execute();
-  return { seeded, closed: closed.map((r) => r.id) };
+  return {
+    seeded: cursors.map((c) => ({ ruleId: c.rule_id, loopId: c.loop_id, through: c.evaluated_through.toISOString() })),
+    closed: closed.map((r) => r.id),
+  };
 }
 
 async function applyEvent(
