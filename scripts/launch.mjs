@@ -12,6 +12,7 @@ import fs from 'node:fs';
 import path from 'node:path';
 import process from 'node:process';
 import { fileURLToPath } from 'node:url';
+import { ClusterUsers, commandFor, describeUsers, exitCodeForSignal } from './launch-lib.mjs';
 
 const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 process.chdir(root);
@@ -21,9 +22,12 @@ const PG_BIN = '/usr/lib/postgresql/15/bin';
 const PG_PORT = Number(process.env.MILLRACE_PG_PORT ?? 54329);
 const dataDir = path.join(root, '.data');
 const children = new Set();
-let startedCluster = null;
+/** Set while this process is a recorded user of the private cluster: { dir, users }. */
+let clusterUse = null;
 let lockFile = null;
 let stopping = false;
+/** The signal that is stopping the launcher, if one is. */
+let signalled = null;
 
 const log = (msg) => console.log(`[millrace] ${msg}`);
 const fail = (msg) => {
@@ -31,9 +35,54 @@ const fail = (msg) => {
   process.exit(1);
 };
 
-function run(cmd, args, opts = {}) {
+/** Run a short command to its end, blocking (package installs, initdb, pg_ctl). */
+function runSync(cmd, args, opts = {}) {
   const r = spawnSync(cmd, args, { stdio: 'inherit', ...opts });
+  if (r.error) throw new Error(`${cmd} could not be run: ${r.error.message}`);
   if (r.status !== 0) throw new Error(`${cmd} ${args.join(' ')} exited with ${r.status ?? r.signal}`);
+}
+
+/**
+ * Run a step as a child without blocking, so that a signal reaches the launcher while it runs
+ * (and is passed on to the child by shutdown()). Resolves to { status, signal }.
+ */
+function runStep(cmd, args, opts = {}) {
+  // Nothing new is started once shutdown() has begun (it would outlive the launcher).
+  if (shuttingDown) return Promise.resolve({ status: null, signal: signalled });
+  return new Promise((resolve) => {
+    const child = spawn(cmd, args, { stdio: 'inherit', ...opts });
+    children.add(child);
+    child.once('error', (err) => {
+      children.delete(child);
+      resolve({ status: null, signal: null, error: err });
+    });
+    child.once('exit', (status, signal) => {
+      children.delete(child);
+      resolve({ status, signal });
+    });
+  });
+}
+
+/**
+ * After each step: when the launcher is being stopped (a signal, or a part that died) or the step
+ * itself was ended by a signal, go no further; shutdown() ends the process with a non-zero status.
+ */
+async function checkpoint(label, r) {
+  // Let a pending SIGINT/SIGTERM handler run first.
+  await new Promise((resolve) => setImmediate(resolve));
+  const sig = signalled ?? r?.signal ?? null;
+  if (!stopping && !shuttingDown && !sig) return;
+  log(`${label} ${sig ? `ended by ${sig}` : 'stopped'}; not going on`);
+  shutdown(sig ? exitCodeForSignal(sig) : 1);
+  await new Promise(() => {}); // shutdown() exits the process
+}
+
+/** Run a step that must succeed: throws when it fails, stops everything when interrupted. */
+async function run(cmd, args, opts = {}) {
+  const r = await runStep(cmd, args, opts);
+  await checkpoint(path.basename(cmd), r);
+  if (r.error) throw new Error(`${cmd} could not be run: ${r.error.message}`);
+  if (r.status !== 0) throw new Error(`${cmd} ${args.join(' ')} exited with ${r.status}`);
 }
 
 function quiet(cmd, args, opts = {}) {
@@ -45,8 +94,8 @@ const isRoot = () => typeof process.getuid === 'function' && process.getuid() ==
 function aptInstall(pkgs, why) {
   if (!isRoot()) fail(`${why} is missing. Install it with: sudo apt-get install -y ${pkgs.join(' ')}`);
   log(`installing ${pkgs.join(' ')} from Debian (${why} is missing)…`);
-  run('apt-get', ['update', '-qq'], { env: { ...process.env, DEBIAN_FRONTEND: 'noninteractive' } });
-  run('apt-get', ['install', '-y', '-qq', '--no-install-recommends', ...pkgs], {
+  runSync('apt-get', ['update', '-qq'], { env: { ...process.env, DEBIAN_FRONTEND: 'noninteractive' } });
+  runSync('apt-get', ['install', '-y', '-qq', '--no-install-recommends', ...pkgs], {
     env: { ...process.env, DEBIAN_FRONTEND: 'noninteractive' },
   });
 }
@@ -63,7 +112,7 @@ function ensureDependencies() {
     .digest('hex');
   if (fs.existsSync(stamp) && fs.readFileSync(stamp, 'utf8') === want) return;
   log('installing npm dependencies…');
-  run('npm', [fs.existsSync(lock) ? 'ci' : 'install', '--no-audit', '--no-fund', '--loglevel=error']);
+  runSync('npm', [fs.existsSync(lock) ? 'ci' : 'install', '--no-audit', '--no-fund', '--loglevel=error']);
   fs.writeFileSync(stamp, want);
 }
 
@@ -100,46 +149,67 @@ function asPostgres(args) {
   return r.stdout;
 }
 
+/**
+ * Start the private cluster, or share it when it already runs. Every launcher that uses it is
+ * recorded beside it (one file per process); the last one to leave stops it (releaseCluster).
+ * A cluster left running by a launcher that was killed, with no live user, is adopted: this run
+ * stops it on exit.
+ */
 function startPrivateCluster() {
   ensurePostgresInstalled();
   const dir = clusterDir();
   const sockDir = path.dirname(dir);
-  if (!fs.existsSync(path.join(dir, 'PG_VERSION'))) {
-    log(`creating a private PostgreSQL cluster in ${dir}`);
-    fs.mkdirSync(sockDir, { recursive: true });
-    if (isRoot()) fs.chownSync(sockDir, uid('postgres'), gid('postgres'));
-    const initdb = [path.join(PG_BIN, 'initdb'), '-D', dir, '-A', 'trust', '-U', 'millrace', '--no-instructions', '-E', 'UTF8', '--locale=C.UTF-8'];
-    if (isRoot()) asPostgres(initdb);
-    else run(initdb[0], initdb.slice(1));
-    // Loopback only, a non-default port, the socket beside the cluster: trust authentication is
-    // acceptable only because nothing outside this machine can reach it.
-    fs.appendFileSync(
-      path.join(dir, 'postgresql.conf'),
-      `\n# Millrace private cluster\nlisten_addresses = '127.0.0.1'\nport = ${PG_PORT}\nunix_socket_directories = '${sockDir}'\nfsync = on\nmax_connections = 100\nshared_buffers = 256MB\nmax_wal_size = 2GB\n`,
-    );
-  }
-  if (pgReady()) {
-    log(`PostgreSQL already running on 127.0.0.1:${PG_PORT}; reusing it`);
-    return;
-  }
-  const ctl = [path.join(PG_BIN, 'pg_ctl'), '-D', dir, '-l', path.join(sockDir, 'pg.log'), '-w', '-t', '60', 'start'];
-  if (isRoot()) asPostgres(ctl);
-  else run(ctl[0], ctl.slice(1));
-  startedCluster = dir;
-  log(`PostgreSQL started on 127.0.0.1:${PG_PORT}`);
+  fs.mkdirSync(sockDir, { recursive: true });
+  const users = new ClusterUsers(path.join(sockDir, 'pg-users'));
+  users.exclusive(() => {
+    if (!fs.existsSync(path.join(dir, 'PG_VERSION'))) {
+      log(`creating a private PostgreSQL cluster in ${dir}`);
+      if (isRoot()) fs.chownSync(sockDir, uid('postgres'), gid('postgres'));
+      const initdb = [path.join(PG_BIN, 'initdb'), '-D', dir, '-A', 'trust', '-U', 'millrace', '--no-instructions', '-E', 'UTF8', '--locale=C.UTF-8'];
+      if (isRoot()) asPostgres(initdb);
+      else runSync(initdb[0], initdb.slice(1));
+      // Loopback only, a non-default port, the socket beside the cluster: trust authentication is
+      // acceptable only because nothing outside this machine can reach it.
+      fs.appendFileSync(
+        path.join(dir, 'postgresql.conf'),
+        `\n# Millrace private cluster\nlisten_addresses = '127.0.0.1'\nport = ${PG_PORT}\nunix_socket_directories = '${sockDir}'\nfsync = on\nmax_connections = 100\nshared_buffers = 256MB\nmax_wal_size = 2GB\n`,
+      );
+    }
+    const others = users.join(process.pid, mode);
+    clusterUse = { dir, users };
+    if (pgReady()) {
+      if (others.length) log(`PostgreSQL already running on 127.0.0.1:${PG_PORT}; sharing it with ${describeUsers(others)}`);
+      else log(`PostgreSQL already running on 127.0.0.1:${PG_PORT} with no other Millrace process using it (left by a run that was killed?); adopting it, it stops when this run ends`);
+      return;
+    }
+    const ctl = [path.join(PG_BIN, 'pg_ctl'), '-D', dir, '-l', path.join(sockDir, 'pg.log'), '-w', '-t', '60', 'start'];
+    if (isRoot()) asPostgres(ctl);
+    else runSync(ctl[0], ctl.slice(1));
+    log(`PostgreSQL started on 127.0.0.1:${PG_PORT}`);
+  });
 }
 
-function stopPrivateCluster() {
-  if (!startedCluster) return;
-  const ctl = [path.join(PG_BIN, 'pg_ctl'), '-D', startedCluster, '-m', 'fast', '-w', 'stop'];
+/** Leave the private cluster; stop it when no other live launcher uses it. Safe to call twice. */
+function releaseCluster() {
+  if (!clusterUse) return;
+  const { dir, users } = clusterUse;
+  clusterUse = null;
   try {
-    if (isRoot()) asPostgres(ctl);
-    else run(ctl[0], ctl.slice(1));
-    log('PostgreSQL stopped');
+    users.exclusive(() => {
+      const others = users.leave(process.pid);
+      if (others.length) {
+        log(`PostgreSQL left running for ${describeUsers(others)}`);
+        return;
+      }
+      if (!fs.existsSync(path.join(dir, 'postmaster.pid'))) return;
+      const ctl = [path.join(PG_BIN, 'pg_ctl'), '-D', dir, '-m', 'fast', '-w', 'stop'];
+      if (isRoot()) asPostgres(ctl);
+      else runSync(ctl[0], ctl.slice(1));
+      log('PostgreSQL stopped');
+    });
   } catch (err) {
     console.error(String(err));
   }
-  startedCluster = null;
 }
 
 function uid(name) {
@@ -149,9 +219,33 @@ function gid(name) {
   return Number(execFileSync('id', ['-g', name], { encoding: 'utf8' }).trim());
 }
 
+let psqlBin = null;
+/** The psql to use: PostgreSQL 15's own, else the one on PATH; installed from Debian when neither runs. */
+function findPsql() {
+  if (psqlBin) return psqlBin;
+  const works = (cmd) => {
+    const r = quiet(cmd, ['--version']);
+    return !r.error && r.status === 0;
+  };
+  const candidates = [path.join(PG_BIN, 'psql'), 'psql'];
+  psqlBin = candidates.find(works) ?? null;
+  if (!psqlBin) {
+    // With DATABASE_URL set the server package is never installed, and psql with it.
+    aptInstall(['postgresql-client'], 'psql (the PostgreSQL client, which the launcher uses to create and drop its databases)');
+    psqlBin = candidates.find(works) ?? null;
+    if (!psqlBin) fail('psql still does not run after installing postgresql-client; install a PostgreSQL client so that `psql --version` works');
+  }
+  return psqlBin;
+}
+
 function psql(url, sql) {
-  const r = quiet('psql', [url, '-v', 'ON_ERROR_STOP=1', '-qtAc', sql]);
-  if (r.status !== 0) throw new Error(`psql failed: ${r.stderr}`);
+  const cmd = findPsql();
+  const r = quiet(cmd, [url, '-v', 'ON_ERROR_STOP=1', '-qtAc', sql]);
+  if (r.error) throw new Error(`psql could not be run (${cmd}): ${r.error.message}`);
+  if (r.status !== 0) {
+    const u = new URL(url);
+    throw new Error(`psql on ${u.hostname}:${u.port || 5432}${u.pathname} failed for \`${sql}\`: ${(r.stderr || r.stdout || `exit ${r.status}`).trim()}`);
+  }
   return r.stdout.trim();
 }
 
@@ -214,6 +308,7 @@ function takeLock(name) {
 const tsx = path.join(root, 'node_modules', '.bin', 'tsx');
 
 function spawnChild(name, cmd, args, env) {
+  if (shuttingDown) return null;
   const child = spawn(cmd, args, { env: { ...process.env, ...env }, stdio: ['ignore', 'pipe', 'pipe'] });
   const prefix = (stream, out) => {
     let buf = '';
@@ -237,8 +332,8 @@ function spawnChild(name, cmd, args, env) {
   return child;
 }
 
-function runTs(script, args, env) {
-  run(tsx, [script, ...args], { env: { ...process.env, ...env } });
+async function runTs(script, args, env) {
+  await run(tsx, [script, ...args], { env: { ...process.env, ...env } });
 }
 
 async function waitForHttp(url, timeoutMs = 60_000) {
@@ -271,25 +366,42 @@ async function killChildren() {
   await Promise.all(waits);
 }
 
+function removeLock() {
+  if (lockFile) fs.rmSync(lockFile, { force: true });
+  lockFile = null;
+}
+
 let shuttingDown = false;
+/** Stop the children, leave the cluster, drop the lock, exit (128 + n when a signal stopped us). */
 async function shutdown(code) {
   if (shuttingDown) return;
   shuttingDown = true;
   await killChildren();
-  stopPrivateCluster();
-  if (lockFile) fs.rmSync(lockFile, { force: true });
-  process.exit(code);
+  // A step that failed because Ctrl-C reached it too: let the launcher's own signal handler run
+  // first, so the exit status says it was a signal.
+  await new Promise((resolve) => setTimeout(resolve, 20));
+  releaseCluster();
+  removeLock();
+  process.exit(signalled ? exitCodeForSignal(signalled) : code);
 }
 
-process.on('SIGINT', () => {
-  log('stopping…');
-  shutdown(0);
+function onSignal(sig) {
+  if (!signalled) signalled = sig;
+  log(`stopping (${sig})…`);
+  shutdown(exitCodeForSignal(sig));
+}
+process.on('SIGINT', () => onSignal('SIGINT'));
+process.on('SIGTERM', () => onSignal('SIGTERM'));
+process.on('SIGHUP', () => onSignal('SIGHUP'));
+// Whatever way the launcher ends (fail(), an uncaught error), it leaves the cluster and the lock.
+process.on('exit', () => {
+  releaseCluster();
+  removeLock();
 });
-process.on('SIGTERM', () => shutdown(0));
 
-function build(env) {
+async function build(env) {
   log('building the web app…');
-  run(path.join(root, 'node_modules', '.bin', 'astro'), ['build', '--silent'], {
+  await run(path.join(root, 'node_modules', '.bin', 'astro'), ['build', '--silent'], {
     env: { ...process.env, ...env, ASTRO_TELEMETRY_DISABLED: '1' },
   });
 }
@@ -324,11 +436,12 @@ async function start() {
   ensureDatabase(dbUrl);
   const port = Number(process.env.PORT ?? 4321);
   const env = appEnv(dbUrl, port, { DEMO_MODE: process.env.DEMO_MODE ?? '1', DEMO_PASSWORD });
-  runTs('scripts/migrate.ts', [], env);
-  runTs('scripts/seed.ts', ['--if-empty'], env);
-  build(env);
+  await runTs('scripts/migrate.ts', [], env);
+  await runTs('scripts/seed.ts', ['--if-empty'], env);
+  await build(env);
   spawnChild('web', process.execPath, ['dist/server/entry.mjs'], env);
   await waitForHttp(`http://127.0.0.1:${port}/sign-in`);
+  await checkpoint('starting the web server', null);
   for (const part of longRunningParts()) spawnChild(part.name, tsx, [part.script], env);
   printWelcome(port);
 }
@@ -354,8 +467,8 @@ async function dev() {
   const dbUrl = databaseUrl();
   ensureDatabase(dbUrl);
   const env = appEnv(dbUrl, 4321, { DEMO_MODE: '1', DEMO_PASSWORD });
-  runTs('scripts/migrate.ts', [], env);
-  runTs('scripts/seed.ts', ['--if-empty'], env);
+  await runTs('scripts/migrate.ts', [], env);
+  await runTs('scripts/seed.ts', ['--if-empty'], env);
   spawnChild('dev', path.join(root, 'node_modules', '.bin', 'astro'), ['dev', '--host', '127.0.0.1', '--port', '4321'], env);
   printWelcome(4321);
 }
@@ -390,43 +503,44 @@ async function test() {
     SMTP_PORT: process.env.TEST_SMTP_PORT ?? '2599',
     MAILBOX_DIR: path.join(outDir, 'mailbox'),
     TEST_BASE_URL: `http://127.0.0.1:${port}`,
-    MILLRACE_TEST: '1',
   });
-  runTs('scripts/migrate.ts', [], env);
-  runTs('scripts/seed.ts', [], env);
+  await runTs('scripts/migrate.ts', [], env);
+  await runTs('scripts/seed.ts', [], env);
   const results = [];
   log('type checking…');
-  const check = spawnSync(path.join(root, 'node_modules', '.bin', 'astro'), ['check', '--minimumSeverity', 'error'], { stdio: 'inherit', env: { ...process.env, ASTRO_TELEMETRY_DISABLED: '1' } });
+  const check = await runStep(path.join(root, 'node_modules', '.bin', 'astro'), ['check', '--minimumSeverity', 'error'], { env: { ...process.env, ASTRO_TELEMETRY_DISABLED: '1' } });
+  await checkpoint('astro check', check);
   results.push({ name: 'astro check', code: check.status, summary: { passed: check.status === 0 ? 1 : 0, failed: check.status === 0 ? 0 : 1, skipped: 0 } });
-  build(env);
+  await build(env);
   spawnChild('web', process.execPath, ['dist/server/entry.mjs'], env);
   await waitForHttp(`http://127.0.0.1:${port}/sign-in`);
+  await checkpoint('starting the web server', null);
 
   // `npm test -- --no-e2e [vitest filters]` stops after vitest (a developer's quick loop; CI runs everything)
   const noE2e = extraArgs.includes('--no-e2e');
   const vitestArgs = extraArgs.filter((a) => a !== '--no-e2e');
   const vitestJson = path.join(outDir, 'vitest.json');
-  const v = spawnSync(path.join(root, 'node_modules', '.bin', 'vitest'), ['run', '--reporter=default', '--reporter=json', `--outputFile.json=${vitestJson}`, ...vitestArgs], {
-    stdio: 'inherit',
+  const v = await runStep(path.join(root, 'node_modules', '.bin', 'vitest'), ['run', '--reporter=default', '--reporter=json', `--outputFile.json=${vitestJson}`, ...vitestArgs], {
     env: { ...process.env, ...env },
   });
+  await checkpoint('vitest', v);
   results.push({ name: 'vitest', code: v.status, summary: summaryFromJson(vitestJson, 'vitest') });
 
   if (!noE2e) {
     // The end-to-end run starts from the demo seed again, whatever the integration tests left.
-    runTs('scripts/seed.ts', ['--reset'], env);
+    await runTs('scripts/seed.ts', ['--reset'], env);
     const pwJson = path.join(outDir, 'playwright.json');
-    const p = spawnSync(path.join(root, 'node_modules', '.bin', 'playwright'), ['test', '--reporter=list,json'], {
-      stdio: 'inherit',
+    const p = await runStep(path.join(root, 'node_modules', '.bin', 'playwright'), ['test', '--reporter=list,json'], {
       env: { ...process.env, ...env, PLAYWRIGHT_JSON_OUTPUT_NAME: pwJson },
     });
+    await checkpoint('playwright', p);
     results.push({ name: 'playwright', code: p.status, summary: summaryFromJson(pwJson, 'playwright') });
   }
 
   await killChildren();
   dropDatabase(dbUrl);
-  stopPrivateCluster();
-  fs.rmSync(lockFile, { force: true });
+  releaseCluster();
+  removeLock();
   let passed = 0;
   let failed = 0;
   let skipped = 0;
@@ -448,9 +562,9 @@ async function tool(script, env = {}) {
   ensureDatabase(dbUrl);
   const e = appEnv(dbUrl, Number(process.env.PORT ?? 4321), env);
   try {
-    runTs(script, extraArgs, e);
+    await runTs(script, extraArgs, e);
   } finally {
-    stopPrivateCluster();
+    releaseCluster();
   }
 }
 
@@ -480,7 +594,7 @@ try {
     case 'bench':
       if (!fs.existsSync(path.join(root, 'dist/server/entry.mjs'))) {
         ensureDependencies();
-        build({});
+        await build({});
       }
       await tool('scripts/bench.ts');
       break;

@@ -1,32 +1,44 @@
+import { accessFor } from './server/auth/access';
 import type { Access } from './server/auth/roles';
 
-/** One entry of the shell's navigation, shown only to those its rule allows. */
+/** One entry of the shell's navigation, shown only to those its page's route rule admits. */
 export interface NavEntry {
   href: string;
   label: string;
   access: Access;
 }
 
+/**
+ * A navigation entry whose visibility is the GET rule of its page in the route table, so the bar
+ * never shows a link its reader would be refused (nor hides one they may use). A page without a
+ * rule is a mistake in this list, caught when the module loads.
+ */
+export function navEntry(href: string, label: string): NavEntry {
+  const access = accessFor(href, 'GET');
+  if (!access) throw new Error(`navigation entry ${label} (${href}) has no GET rule in src/lib/server/auth/access.ts`);
+  return { href, label, access };
+}
+
 /** The work of the flight team, in the order of a shift: what is flying, what tripped, what is next. */
 export const NAV: NavEntry[] = [
-  { href: '/', label: 'Fleet', access: 'signed-in' },
-  { href: '/pass-watch', label: 'Pass watch', access: ['operator', 'analyst', 'engineer', 'admin'] },
-  { href: '/trips', label: 'Trips', access: 'signed-in' },
-  { href: '/passes', label: 'Passes', access: 'signed-in' },
-  { href: '/uploads', label: 'Uploads', access: 'signed-in' },
-  { href: '/roster', label: 'On call', access: 'signed-in' },
-  { href: '/stations', label: 'Stations', access: 'signed-in' },
-  { href: '/limits', label: 'Limit bench', access: ['engineer', 'admin'] },
-  { href: '/docs/api', label: 'API', access: 'signed-in' },
-  { href: '/account', label: 'Account', access: 'signed-in' },
+  navEntry('/', 'Fleet'),
+  navEntry('/pass-watch', 'Pass watch'),
+  navEntry('/trips', 'Trips'),
+  navEntry('/passes', 'Passes'),
+  navEntry('/uploads', 'Uploads'),
+  navEntry('/roster', 'On call'),
+  navEntry('/stations', 'Stations'),
+  navEntry('/limits', 'Limit bench'),
+  navEntry('/docs/api', 'API'),
+  navEntry('/account', 'Account'),
 ];
 
 /** The admin's pages, on a strip of their own under the main bar. */
 export const ADMIN_NAV: NavEntry[] = [
-  { href: '/admin/people', label: 'People', access: ['admin'] },
-  { href: '/admin/tokens', label: 'Tokens', access: ['admin'] },
-  { href: '/admin/audit', label: 'Audit log', access: ['admin'] },
-  { href: '/admin/jobs', label: 'Job log', access: ['admin'] },
-  { href: '/admin/outbox', label: 'Outbox', access: ['admin'] },
-  { href: '/mailbox', label: 'Mailbox', access: ['admin'] },
+  navEntry('/admin/people', 'People'),
+  navEntry('/admin/tokens', 'Tokens'),
+  navEntry('/admin/audit', 'Audit log'),
+  navEntry('/admin/jobs', 'Job log'),
+  navEntry('/admin/outbox', 'Outbox'),
+  navEntry('/mailbox', 'Mailbox'),
 ];

@@ -1,7 +1,7 @@
 import { afterAll, describe, expect, it } from 'vitest';
 import { randomBytes } from 'node:crypto';
 import { sql } from 'kysely';
-import { Client, clientAs, db } from './support';
+import { BASE_URL, Client, clientAs, db } from './support';
 import { createDb, createPool } from '../../src/lib/server/db';
 import { migrateToLatest, migrator } from '../../src/lib/server/db/migrate';
 import { seedDemo } from '../../src/lib/server/seed';
@@ -94,6 +94,44 @@ describe('sign-in', () => {
     expect(Number(blocked.headers.get('retry-after'))).toBeGreaterThan(0);
   });
 
+  it('holds the account limit against parallel attempts', async () => {
+    const email = uniqueEmail('parallel');
+    await insertUser(db, { email, name: 'Parallel', password: 'right-password-3', roles: ['operator'] });
+    const attempts = 20;
+    const results = await Promise.all(Array.from({ length: attempts }, () => new Client().signIn(email, 'wrong-password')));
+    const statuses = results.map((r) => r.status);
+    // A 401 means the attempt got past the limit to the password check; a 429 means it did not.
+    const checked = statuses.filter((s) => s === 401).length;
+    expect(statuses.every((s) => s === 401 || s === 429), statuses.join(',')).toBe(true);
+    expect(checked, statuses.join(',')).toBeLessThanOrEqual(SIGN_IN_LIMITS.perAccount);
+    expect(checked).toBeGreaterThan(0);
+    const stored = await db.selectFrom('sign_in_attempt').select('failures').where('scope', '=', 'account').where('key', '=', email).executeTakeFirstOrThrow();
+    expect(stored.failures).toBe(checked);
+    const blocked = await new Client().signIn(email, 'right-password-3');
+    expect(blocked.status).toBe(429);
+  });
+
+  it('gives back the slot of a refused or successful attempt, so only failures use up the limit', async () => {
+    const address = `198.51.100.${Math.floor(Math.random() * 250)}`;
+    const email = uniqueEmail('slots');
+    await insertUser(db, { email, name: 'Slots', password: 'right-password-4', roles: ['operator'] });
+    const now = new Date();
+    const count = async (scope: 'account' | 'address', key: string) =>
+      (await db.selectFrom('sign_in_attempt').select('failures').where('scope', '=', scope).where('key', '=', key).executeTakeFirst())?.failures ?? 0;
+    await expect(checkCredentials(db, { email, password: 'wrong', address }, now)).rejects.toMatchObject({ code: 'UNAUTHORIZED' });
+    expect([await count('account', email), await count('address', address)]).toEqual([1, 1]);
+    await checkCredentials(db, { email, password: 'right-password-4', address }, now);
+    // Success clears the account and returns its own slot on the address (the earlier failure stays).
+    expect([await count('account', email), await count('address', address)]).toEqual([0, 1]);
+    for (let i = 0; i < SIGN_IN_LIMITS.perAccount; i++) {
+      await expect(checkCredentials(db, { email, password: 'wrong', address }, now)).rejects.toMatchObject({ code: 'UNAUTHORIZED' });
+    }
+    for (let i = 0; i < 3; i++) {
+      await expect(checkCredentials(db, { email, password: 'wrong', address }, now)).rejects.toMatchObject({ code: 'TOO_MANY_REQUESTS' });
+    }
+    expect([await count('account', email), await count('address', address)]).toEqual([SIGN_IN_LIMITS.perAccount, 1 + SIGN_IN_LIMITS.perAccount]);
+  });
+
   it('rate-limits an address across accounts', async () => {
     const address = `203.0.113.${Math.floor(Math.random() * 250)}`;
     const now = new Date();
@@ -103,6 +141,24 @@ describe('sign-in', () => {
     const err = await checkCredentials(db, { email: 'operator@millrace.test', password: 'millrace-demo', address }, now).catch((e) => e);
     expect(err).toBeInstanceOf(HttpError);
     expect(err.code).toBe('TOO_MANY_REQUESTS');
+  });
+});
+
+describe('cross-origin form posts', () => {
+  const form = () => new URLSearchParams({ email: 'operator@millrace.test', password: 'wrong-password' });
+  const post = (origin: string) =>
+    fetch(`${BASE_URL}/sign-in`, { method: 'POST', headers: { origin, 'content-type': 'application/x-www-form-urlencoded' }, body: form(), redirect: 'manual' });
+
+  it('refuses a sign-in form posted from another origin with 403', async () => {
+    const res = await post('http://evil.example');
+    expect(res.status).toBe(403);
+    expect(res.headers.getSetCookie().some((c) => c.startsWith('millrace_session='))).toBe(false);
+  });
+
+  it('lets the same form through from the app itself (so the 403 above is the origin check)', async () => {
+    const res = await post(BASE_URL);
+    expect(res.status).toBe(401);
+    expect(await res.text()).toContain('E-mail or password is wrong.');
   });
 });
 

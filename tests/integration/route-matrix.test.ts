@@ -1,4 +1,5 @@
 import fs from 'node:fs';
+import os from 'node:os';
 import path from 'node:path';
 import { beforeAll, describe, expect, it } from 'vitest';
 import { Client, clientAs, type TestRole } from './support';
@@ -104,32 +105,127 @@ export const MATRIX: Record<string, Entry> = {
 
 const ROLES: TestRole[] = ['operator', 'analyst', 'engineer', 'admin'];
 
-/** Route patterns and methods as the files in src/pages declare them. */
-function discoverRoutes(): Map<string, Set<string>> {
-  const root = path.resolve('src/pages');
-  const out = new Map<string, Set<string>>();
+const METHODS = ['GET', 'POST', 'PUT', 'PATCH', 'DELETE'] as const;
+const METHOD_NAME = '(GET|POST|PUT|PATCH|DELETE|ALL)';
+/** Files Astro routes: pages (answer GET; a page may branch on the method) and endpoints. */
+const PAGE_FILE = /\.(astro|md|mdx|html)$/;
+const ENDPOINT_FILE = /\.(ts|js|mjs|mts)$/;
+
+export interface Discovered {
+  routes: Map<string, Set<string>>;
+  /** Route files whose methods could not be read: each fails the matrix test. */
+  problems: string[];
+}
+
+/** The methods an endpoint module exports, in any of the forms Astro accepts. */
+function endpointMethods(text: string): { methods: Set<string>; problem: string | null } {
+  const methods = new Set<string>();
+  const add = (m: string) => {
+    // ALL answers every method, so the matrix must say who may use each of them.
+    if (m === 'ALL') for (const x of METHODS) methods.add(x);
+    else methods.add(m);
+  };
+  // export const GET = …, export let GET, export function GET(…), export async function GET(…)
+  for (const m of text.matchAll(new RegExp(`export\\s+(?:(?:const|let|var)\\s+|(?:async\\s+)?function\\s*\\*?\\s*)${METHOD_NAME}\\b`, 'g'))) add(m[1]!);
+  // export { handler as GET, POST }, export { GET } from './x'
+  for (const list of text.matchAll(/export\s*(?:type\s*)?\{([^}]*)\}/g)) {
+    for (const part of list[1]!.split(',')) {
+      const name = part.trim().split(/\s+as\s+/).pop()?.trim();
+      if (name && new RegExp(`^${METHOD_NAME}$`).test(name)) add(name);
+    }
+  }
+  if (/export\s*\*/.test(text)) return { methods, problem: 're-exports with `export *`, so its methods cannot be read' };
+  if (methods.size === 0) return { methods, problem: 'exports no GET/POST/PUT/PATCH/DELETE/ALL handler that this test can find' };
+  return { methods, problem: null };
+}
+
+/** The methods a page answers: GET, and each method it compares `Astro.request.method` with. */
+function pageMethods(text: string): { methods: Set<string>; problem: string | null } {
+  const methods = new Set<string>(['GET']);
+  const uses = [...text.matchAll(/Astro\.request\.method/g)].length;
+  const compared = [
+    ...text.matchAll(/Astro\.request\.method\s*[!=]==?\s*['"`]([A-Z]+)['"`]/g),
+    ...text.matchAll(/['"`]([A-Z]+)['"`]\s*[!=]==?\s*Astro\.request\.method/g),
+  ];
+  for (const m of compared) methods.add(m[1]!);
+  const unknown = [...methods].filter((m) => !(METHODS as readonly string[]).includes(m));
+  if (unknown.length) return { methods, problem: `compares the method with ${unknown.join(', ')}` };
+  if (compared.length !== uses) return { methods, problem: 'reads Astro.request.method other than in a plain comparison with a method name' };
+  return { methods, problem: null };
+}
+
+/** Route patterns and methods as the files under `root` (src/pages) declare them. */
+export function discoverRoutes(root = path.resolve('src/pages')): Discovered {
+  const routes = new Map<string, Set<string>>();
+  const problems: string[] = [];
   const walk = (dir: string) => {
     for (const f of fs.readdirSync(dir, { withFileTypes: true })) {
+      // Astro does not route files or folders whose name starts with an underscore.
+      if (f.name.startsWith('_')) continue;
       const full = path.join(dir, f.name);
-      if (f.isDirectory()) walk(full);
-      else if (/\.(astro|ts)$/.test(f.name)) {
-        let route = '/' + path.relative(root, full).replace(/\.(astro|ts)$/, '').replace(/(^|\/)index$/, '');
-        route = route.replace(/\/$/, '') || '/';
-        const text = fs.readFileSync(full, 'utf8');
-        const methods = new Set<string>();
-        if (f.name.endsWith('.astro')) {
-          methods.add('GET');
-          if (/Astro\.request\.method === 'POST'/.test(text)) methods.add('POST');
-        } else {
-          for (const m of text.matchAll(/export const (GET|POST|PUT|PATCH|DELETE)\b/g)) methods.add(m[1]!);
-        }
-        out.set(route, methods);
+      const rel = path.relative(root, full);
+      if (f.isDirectory()) {
+        walk(full);
+        continue;
       }
+      const isPage = PAGE_FILE.test(f.name);
+      if (!isPage && !ENDPOINT_FILE.test(f.name)) continue;
+      if (/\.d\.m?ts$/.test(f.name)) continue;
+      let route = '/' + rel.replace(isPage ? PAGE_FILE : ENDPOINT_FILE, '').replace(/(^|\/)index$/, '');
+      route = route.replace(/\/$/, '') || '/';
+      const text = fs.readFileSync(full, 'utf8');
+      const { methods, problem } = isPage ? pageMethods(text) : endpointMethods(text);
+      if (problem) problems.push(`${rel}: ${problem}`);
+      if (routes.has(route)) problems.push(`${rel}: a second file for route ${route}`);
+      routes.set(route, new Set([...(routes.get(route) ?? []), ...methods]));
     }
   };
   walk(root);
-  return out;
+  return { routes, problems };
 }
+
+describe('route discovery', () => {
+  it('finds every form of route file Astro serves, and flags what it cannot read', () => {
+    const dir = fs.mkdtempSync(path.join(os.tmpdir(), 'millrace-pages-'));
+    const put = (rel: string, text: string) => {
+      fs.mkdirSync(path.dirname(path.join(dir, rel)), { recursive: true });
+      fs.writeFileSync(path.join(dir, rel), text);
+    };
+    try {
+      put('api/a.ts', 'export const GET: APIRoute = () => new Response();\nexport const POST = handle(async () => json({}));');
+      put('api/b.ts', 'export async function GET() { return new Response(); }\nexport function DELETE() {}');
+      put('api/c.js', 'export const ALL = () => new Response();');
+      put('api/d/[id].mjs', 'const h = () => new Response();\nexport { h as PATCH, h as PUT };');
+      put('api/e.json.ts', 'export let GET = () => new Response();');
+      put('api/_helpers.ts', 'export const GET = 1;');
+      put('_drafts/x.astro', '---\n---');
+      put('api/helper.ts', 'export const util = 1;');
+      put('api/star.ts', "export * from './a';");
+      put('index.astro', '---\n---\n<p>home</p>');
+      put('form.astro', "---\nif (Astro.request.method === 'POST') {}\n---");
+      put('odd.astro', "---\nconst m = Astro.request.method;\n---");
+      put('notes/about.md', '# About');
+      const { routes, problems } = discoverRoutes(dir);
+      const got = Object.fromEntries([...routes].map(([r, m]) => [r, [...m].sort()]));
+      expect(got).toEqual({
+        '/api/a': ['GET', 'POST'],
+        '/api/b': ['DELETE', 'GET'],
+        '/api/c': [...METHODS].sort(),
+        '/api/d/[id]': ['PATCH', 'PUT'],
+        '/api/e.json': ['GET'],
+        '/api/helper': [],
+        '/api/star': [],
+        '/': ['GET'],
+        '/form': ['GET', 'POST'],
+        '/odd': ['GET'],
+        '/notes/about': ['GET'],
+      });
+      expect(problems.map((p) => p.split(':')[0]).sort()).toEqual(['api/helper.ts', 'api/star.ts', 'odd.astro']);
+    } finally {
+      fs.rmSync(dir, { recursive: true, force: true });
+    }
+  });
+});
 
 describe('route × role matrix', () => {
   const clients: Partial<Record<TestRole | 'anonymous', Client>> = {};
@@ -139,7 +235,8 @@ describe('route × role matrix', () => {
   });
 
   it('has an entry for every route and method in src/pages, and no stale entries', () => {
-    const found = discoverRoutes();
+    const { routes: found, problems } = discoverRoutes();
+    expect(problems, 'route files whose methods this test cannot read').toEqual([]);
     const declared = new Map(Object.entries(MATRIX).map(([k, v]) => [k, new Set(Object.keys(v.methods))]));
     expect([...found.keys()].sort()).toEqual([...declared.keys()].sort());
     for (const [route, methods] of found) expect([...methods].sort(), route).toEqual([...declared.get(route)!].sort());

@@ -22,7 +22,22 @@ export async function endSession(cookies: AstroCookies, sessionId: string | null
   cookies.set(c.name, c.value, c.attributes);
 }
 
-/** Only same-site relative paths may be a post-sign-in destination. */
+const PROBE_BASE = 'http://x.invalid';
+
+/**
+ * Only same-origin paths may be a post-sign-in destination. Browsers read a backslash as a slash
+ * and drop tabs and newlines inside a URL, so `/\evil.example` or `/<tab>/evil.example` would
+ * leave the site; anything with a backslash or a control character is refused outright, and what
+ * is left must resolve against a probe base without changing its origin.
+ */
 export function safeNext(next: string | null | undefined): string {
-  return next && next.startsWith('/') && !next.startsWith('//') ? next : '/';
+  if (!next || !next.startsWith('/') || next.startsWith('//')) return '/';
+  if (/[\\\u0000-\u001f\u007f]/.test(next)) return '/';
+  let url: URL;
+  try {
+    url = new URL(next, PROBE_BASE);
+  } catch {
+    return '/';
+  }
+  return url.origin === PROBE_BASE ? next : '/';
 }
