@@ -118,10 +118,94 @@ async function dataAgePoints(trx: Transaction<Database>, spacecraftId: number, s
   return [{ t: nowMs, value: Math.max(0, ageS) }];
 }
 
+/** Failed attempts after which a batch is given up (kept unanalysed, its error recorded), so it blocks nothing. */
+export const MAX_BATCH_ATTEMPTS = 3;
+
+/** Batches taken in one piece of work: every clean one, or one that failed before, on its own. */
+type BatchGroup = 'clean' | number;
+
 /**
- * Analyse what arrived for one spacecraft since its cursor (late playback re-analyses exactly the
- * windows it touches), update drift statistics, evaluate the active limits. One transaction,
- * guarded by an advisory lock so that only one instance does it at a time. Idempotent.
+ * Analyse the given batches in one transaction guarded by an advisory lock (only one instance
+ * analyses a spacecraft at a time): the windows their data touches (late playback re-analyses
+ * exactly those), drift statistics, the active limits from the earliest re-analysed time on; then
+ * mark the batches analysed. `tried` receives the batch ids as soon as they are known.
+ */
+async function analyseGroup(
+  db: Kysely<Database>,
+  pool: pg.Pool,
+  sc: { id: number; key: string },
+  group: BatchGroup,
+  nowMs: number,
+  summary: JobSummary,
+  tried: number[],
+  onTripChange?: TripChangeHandler,
+): Promise<'done' | 'busy'> {
+  return db.transaction().execute(async (trx) => {
+    const lock = await sql<{ ok: boolean }>`SELECT pg_try_advisory_xact_lock(hashtext('millrace.analysis'), ${sc.id}) AS ok`.execute(trx);
+    if (!lock.rows[0]?.ok) return 'busy';
+    // Committed batches not yet analysed, in any id order (ids are reserved before a batch commits).
+    let q = trx
+      .selectFrom('ingest_batch')
+      .select(['id', 'first_time_tag', 'last_time_tag'])
+      .where('spacecraft_id', '=', sc.id)
+      .where('analysed_at', 'is', null)
+      .where('analysis_attempts', '<', MAX_BATCH_ATTEMPTS);
+    q = group === 'clean' ? q.where('analysis_attempts', '=', 0) : q.where('id', '=', group);
+    const batches = await q.orderBy('id').limit(20_000).execute();
+    if (!batches.length) return 'done';
+    tried.push(...batches.map((b) => b.id));
+    const sheetRows: SheetRow[] = (
+      await trx.selectFrom('spacecraft_sheet').select(['id', 'effective_from', 'sheet']).where('spacecraft_id', '=', sc.id).orderBy('effective_from').execute()
+    ).map((r) => ({ id: r.id, effectiveFromS: r.effective_from.getTime() / 1000, sheet: spacecraftSheetSchema.parse(r.sheet) }));
+    if (!sheetRows.length) return 'done';
+    summary.batches += batches.length;
+    const ranges = mergeRanges(
+      batches
+        .filter((b) => b.first_time_tag !== null && b.last_time_tag !== null)
+        .map((b) => [Math.floor(unixSecondsOf(b.first_time_tag!) / WINDOW_S) * WINDOW_S, (Math.floor(unixSecondsOf(b.last_time_tag!) / WINDOW_S) + 1) * WINDOW_S]),
+    );
+    const earliestByLoop = new Map<number, number>();
+    for (const [from, to] of ranges) {
+      for (const p of pieces(from, to, sheetRows)) {
+        const input = await loadSpanInput(pool, sc.id, p.from - WINDOW_S, p.to + WINDOW_S);
+        if (!input.loops.length && !input.attitude.t_s.length) continue;
+        const analysis = analyseSpan(input, p.sheet.sheet, { window_s: WINDOW_S });
+        const stored = await storeSpanAnalysis(trx, sc.id, p.sheet.id, analysis, p.from, p.to);
+        summary.windows += stored.windows;
+        summary.rowsWritten += stored.rows;
+        for (const l of analysis.loops) earliestByLoop.set(l.loopId, Math.min(earliestByLoop.get(l.loopId) ?? Infinity, p.from));
+      }
+    }
+    const current = [...sheetRows].reverse().find((s) => s.effectiveFromS * 1000 <= nowMs) ?? sheetRows[0]!;
+    for (const [loopId, fromS] of earliestByLoop) summary.rowsWritten += await updateDrift(trx, sc.id, loopId, current.effectiveFromS, fromS);
+
+    const through = await dataThroughMs(trx, sc.id);
+    if (through !== null) {
+      const changes = await evaluateActiveLimits(trx, sc.id, current.sheet.loops.map((l) => l.id), {
+        nowMs,
+        throughMs: through,
+        extraPoints: { data_age_s: await dataAgePoints(trx, sc.id, current.sheet, nowMs) },
+        // windows, drift statistics, samples and gaps are new or changed from the first range on
+        reevaluateFromMs: ranges.length ? ranges[0]![0] * 1000 : undefined,
+      });
+      for (const c of changes) {
+        summary.trips[c.event.type]++;
+        await onTripChange?.(trx, c, { spacecraftKey: sc.key, nowMs });
+      }
+    }
+    await sql`UPDATE ingest_batch SET analysed_at = now(), analysis_error = NULL WHERE id = ANY(${batches.map((b) => b.id)}::int[])`.execute(trx);
+    return 'done';
+  });
+}
+
+/**
+ * Analyse what arrived for one spacecraft and is not analysed yet (late playback re-analyses exactly
+ * the windows it touches), update drift statistics, evaluate the active limits. Idempotent.
+ *
+ * The clean batches go in one transaction. When it fails, each of its batches counts a failed attempt
+ * and is taken on its own from the next run on, so one bad batch holds up the others for one run
+ * only; after MAX_BATCH_ATTEMPTS failures it is given up, with its error kept on the batch and in the
+ * job run.
  */
 export async function runAnalysisJob(
   db: Kysely<Database>,
@@ -132,76 +216,63 @@ export async function runAnalysisJob(
   const nowMs = opts.nowMs ?? Date.now();
   const summary: JobSummary = { spacecraftId: sc.id, spacecraftKey: sc.key, status: 'done', batches: 0, windows: 0, rowsWritten: 0, trips: { opened: 0, escalated: 0, cleared: 0 } };
   const run = await db.insertInto('job_run').values({ job: 'analysis', spacecraft_id: sc.id, started_at: new Date() }).returning('id').executeTakeFirstOrThrow();
+  const errors: string[] = [];
+  const failed: number[] = [];
+  const givenUp: number[] = [];
   try {
-    await db.transaction().execute(async (trx) => {
-      const lock = await sql<{ ok: boolean }>`SELECT pg_try_advisory_xact_lock(hashtext('millrace.analysis'), ${sc.id}) AS ok`.execute(trx);
-      if (!lock.rows[0]?.ok) {
-        summary.status = 'busy';
-        return;
-      }
-      const cursor = await trx.selectFrom('analysis_cursor').select('last_batch_id').where('spacecraft_id', '=', sc.id).executeTakeFirst();
-      const batches = await trx
-        .selectFrom('ingest_batch')
-        .select(['id', 'first_time_tag', 'last_time_tag'])
-        .where('spacecraft_id', '=', sc.id)
-        .where('id', '>', cursor?.last_batch_id ?? 0)
-        .orderBy('id')
-        .limit(20_000)
-        .execute();
-      summary.batches = batches.length;
-      const sheetRows: SheetRow[] = (
-        await trx.selectFrom('spacecraft_sheet').select(['id', 'effective_from', 'sheet']).where('spacecraft_id', '=', sc.id).orderBy('effective_from').execute()
-      ).map((r) => ({ id: r.id, effectiveFromS: r.effective_from.getTime() / 1000, sheet: spacecraftSheetSchema.parse(r.sheet) }));
-      if (!sheetRows.length) return;
-      const ranges = mergeRanges(
-        batches
-          .filter((b) => b.first_time_tag !== null && b.last_time_tag !== null)
-          .map((b) => [Math.floor(unixSecondsOf(b.first_time_tag!) / WINDOW_S) * WINDOW_S, (Math.floor(unixSecondsOf(b.last_time_tag!) / WINDOW_S) + 1) * WINDOW_S]),
-      );
-      const earliestByLoop = new Map<number, number>();
-      for (const [from, to] of ranges) {
-        for (const p of pieces(from, to, sheetRows)) {
-          const input = await loadSpanInput(pool, sc.id, p.from - WINDOW_S, p.to + WINDOW_S);
-          if (!input.loops.length && !input.attitude.t_s.length) continue;
-          const analysis = analyseSpan(input, p.sheet.sheet, { window_s: WINDOW_S });
-          const stored = await storeSpanAnalysis(trx, sc.id, p.sheet.id, analysis, p.from, p.to);
-          summary.windows += stored.windows;
-          summary.rowsWritten += stored.rows;
-          for (const l of analysis.loops) earliestByLoop.set(l.loopId, Math.min(earliestByLoop.get(l.loopId) ?? Infinity, p.from));
+    const retries = await db
+      .selectFrom('ingest_batch')
+      .select('id')
+      .where('spacecraft_id', '=', sc.id)
+      .where('analysed_at', 'is', null)
+      .where('analysis_attempts', '>', 0)
+      .where('analysis_attempts', '<', MAX_BATCH_ATTEMPTS)
+      .orderBy('id')
+      .execute();
+    const groups: BatchGroup[] = ['clean', ...retries.map((r) => r.id)];
+    for (const group of groups) {
+      const tried: number[] = [];
+      const before = { ...summary, trips: { ...summary.trips } };
+      try {
+        if ((await analyseGroup(db, pool, sc, group, nowMs, summary, tried, opts.onTripChange)) === 'busy') {
+          summary.status = 'busy';
+          break;
         }
-      }
-      const current = [...sheetRows].reverse().find((s) => s.effectiveFromS * 1000 <= nowMs) ?? sheetRows[0]!;
-      for (const [loopId, fromS] of earliestByLoop) summary.rowsWritten += await updateDrift(trx, sc.id, loopId, current.effectiveFromS, fromS);
-
-      const through = await dataThroughMs(trx, sc.id);
-      if (through !== null) {
-        const changes = await evaluateActiveLimits(trx, sc.id, current.sheet.loops.map((l) => l.id), {
-          nowMs,
-          throughMs: through,
-          extraPoints: { data_age_s: await dataAgePoints(trx, sc.id, current.sheet, nowMs) },
-        });
-        for (const c of changes) {
-          summary.trips[c.event.type]++;
-          await opts.onTripChange?.(trx, c, { spacecraftKey: sc.key, nowMs });
-        }
-      }
-      const last = batches[batches.length - 1]?.id;
-      if (last !== undefined) {
-        await trx
-          .insertInto('analysis_cursor')
-          .values({ spacecraft_id: sc.id, last_batch_id: last, updated_at: new Date() })
-          .onConflict((oc) => oc.column('spacecraft_id').doUpdateSet({ last_batch_id: last, updated_at: new Date() }))
+      } catch (err) {
+        // the transaction rolled back: nothing it counted was written
+        Object.assign(summary, { batches: before.batches, windows: before.windows, rowsWritten: before.rowsWritten, trips: before.trips });
+        const message = err instanceof Error ? err.message : String(err);
+        console.error(`[jobs] analysis of ${sc.key} failed (batches ${tried.join(', ') || 'none'}):`, err);
+        if (!tried.length) throw err;
+        const marked = await db
+          .updateTable('ingest_batch')
+          .set((eb) => ({ analysis_attempts: eb('analysis_attempts', '+', 1), analysis_error: message.slice(0, 2000) }))
+          .where('id', 'in', tried)
+          .returning(['id', 'analysis_attempts'])
           .execute();
+        failed.push(...tried);
+        for (const m of marked) if (m.analysis_attempts >= MAX_BATCH_ATTEMPTS) givenUp.push(m.id);
+        errors.push(group === 'clean' ? `batches ${tried[0]}–${tried[tried.length - 1]} (${tried.length}): ${message}` : `batch ${group}: ${message}`);
       }
-    });
+    }
   } catch (err) {
-    summary.status = 'failed';
-    summary.error = err instanceof Error ? err.message : String(err);
+    errors.push(err instanceof Error ? err.message : String(err));
     console.error(`[jobs] analysis of ${sc.key} failed:`, err);
+  }
+  if (givenUp.length) errors.push(`given up after ${MAX_BATCH_ATTEMPTS} failed attempts: batch${givenUp.length > 1 ? 'es' : ''} ${givenUp.join(', ')}`);
+  if (errors.length && summary.status !== 'busy') {
+    summary.status = 'failed';
+    summary.error = errors.join('; ');
   }
   await db
     .updateTable('job_run')
-    .set({ finished_at: new Date(), windows: summary.windows, rows_written: summary.rowsWritten, detail: JSON.stringify({ status: summary.status, batches: summary.batches, trips: summary.trips }), error: summary.error ?? null })
+    .set({
+      finished_at: new Date(),
+      windows: summary.windows,
+      rows_written: summary.rowsWritten,
+      detail: JSON.stringify({ status: summary.status, batches: summary.batches, trips: summary.trips, ...(failed.length ? { failedBatches: failed, givenUpBatches: givenUp } : {}) }),
+      error: summary.error ?? null,
+    })
     .where('id', '=', run.id)
     .execute();
   return summary;

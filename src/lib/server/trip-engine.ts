@@ -141,29 +141,90 @@ export interface TripChange {
   loopId: number | null;
 }
 
+/** Spacing of the per-window figures, ms (the analysis window). */
+const WINDOW_MS = 60_000;
+
+/**
+ * How far before a re-evaluation's start its rule state is rebuilt from: enough points for a run of
+ * `persistence` to be counted again (windows and link counts every 60 s, bursts every few minutes,
+ * raw channels at 10 Hz or faster).
+ */
+export function rebuildMarginMs(info: QuantityInfo, persistence: number): number {
+  const n = Math.max(1, persistence) + 1;
+  switch (info.source) {
+    case 'loop_window':
+    case 'body_window':
+    case 'link':
+      return n * WINDOW_MS;
+    case 'burst_analysis':
+      return n * 15 * 60_000;
+    case 'loop_sample':
+    case 'attitude_sample':
+      return Math.max(60_000, n * 1000);
+  }
+}
+
+/**
+ * The rule's state at `atMs` for a re-evaluation: no run under way, and open if a trip of the rule
+ * on this loop was live then (onset at or before, not cleared by then). The run counters rebuild
+ * from the points of the margin before the re-analysed time.
+ */
+async function stateAt(trx: Transaction<Database>, rule: StoredRule, loopId: number | null, atMs: number): Promise<RuleState> {
+  const at = new Date(atMs);
+  const t = await trx
+    .selectFrom('trip')
+    .select(['level', 'side', 'onset_at', 'raised_at', 'last_value', 'peak_value', 'limit_value'])
+    .where('rule_id', '=', rule.id)
+    .where(sql<boolean>`coalesce(loop_id, -1) = ${loopId ?? -1}`)
+    .where('onset_at', '<=', at)
+    .where((eb) => eb.or([eb('cleared_at', 'is', null), eb('cleared_at', '>', at)]))
+    .orderBy('onset_at', 'desc')
+    .limit(1)
+    .executeTakeFirst();
+  const s = initialRuleState();
+  if (t) s.open = { level: t.level, side: t.side, onsetT: t.onset_at.getTime(), raisedT: t.raised_at.getTime(), value: t.last_value, peak: t.peak_value, limit: t.limit_value };
+  return s;
+}
+
 /**
  * Evaluate the active limits over what arrived since each rule's cursor and write the trips.
  * `extraPoints` supplies points that exist only at evaluation time (data age during a pass).
+ * `reevaluateFromMs` is the earliest time the caller has just (re)analysed: a rule whose cursor is
+ * past it is judged again from there (less a margin that rebuilds its run), so late playback is
+ * checked against the limits too. An excursion that already has a trip of the rule (live or
+ * cleared, overlapping in time) is not raised again.
  */
 export async function evaluateActiveLimits(
   trx: Transaction<Database>,
   spacecraftId: number,
   loopIds: readonly number[],
-  opts: { nowMs: number; throughMs: number; lookbackMs?: number; extraPoints?: Record<string, Point[]> },
+  opts: { nowMs: number; throughMs: number; lookbackMs?: number; extraPoints?: Record<string, Point[]>; reevaluateFromMs?: number },
 ): Promise<TripChange[]> {
   const rules = await findActiveRules(trx, spacecraftId);
   const changes: TripChange[] = [];
   for (const rule of rules) {
     const info = quantityInfo(rule.quantity);
     if (!info) continue;
+    const atEvaluation = info.source === 'link' && info.key === 'data_age_s';
     for (const loopId of ruleTargets(info, rule.loopId, loopIds)) {
+      const tripLoop = loopId === BODY ? null : loopId;
       const cur = await trx.selectFrom('rule_cursor').select(['evaluated_through', 'state']).where('rule_id', '=', rule.id).where('loop_id', '=', loopId).executeTakeFirst();
-      const fromMs = cur ? cur.evaluated_through.getTime() : opts.throughMs - (opts.lookbackMs ?? 24 * 3600_000);
-      const points = info.source === 'link' && info.key === 'data_age_s' ? (opts.extraPoints?.[info.key] ?? []).filter((p) => p.t > fromMs) : await loadQuantitySeries(trx, spacecraftId, info, loopId, fromMs, opts.throughMs);
-      const state: RuleState = cur ? (cur.state as RuleState) : initialRuleState();
+      let fromMs: number;
+      let state: RuleState;
+      if (!cur) {
+        fromMs = opts.throughMs - (opts.lookbackMs ?? 24 * 3600_000);
+        state = initialRuleState();
+      } else if (!atEvaluation && opts.reevaluateFromMs !== undefined && opts.reevaluateFromMs < cur.evaluated_through.getTime()) {
+        fromMs = opts.reevaluateFromMs - rebuildMarginMs(info, rule.persistence);
+        state = await stateAt(trx, rule, tripLoop, fromMs);
+      } else {
+        fromMs = cur.evaluated_through.getTime();
+        state = cur.state as RuleState;
+      }
+      const points = atEvaluation ? (opts.extraPoints?.[info.key] ?? []).filter((p) => p.t > fromMs) : await loadQuantitySeries(trx, spacecraftId, info, loopId, fromMs, opts.throughMs);
       const { events, state: next } = evaluateRule(rule, points, state);
-      for (const event of events) changes.push(await applyEvent(trx, spacecraftId, rule, info, loopId === BODY ? null : loopId, event, points, opts.nowMs));
-      const through = points.length ? Math.max(fromMs, points[points.length - 1]!.t) : fromMs;
+      changes.push(...(await applyEvents(trx, spacecraftId, rule, info, tripLoop, state, events, points, opts.nowMs)));
+      const through = Math.max(fromMs, cur?.evaluated_through.getTime() ?? -Infinity, points.length ? points[points.length - 1]!.t : -Infinity);
       await trx
         .insertInto('rule_cursor')
         .values({ rule_id: rule.id, loop_id: loopId, evaluated_through: new Date(through), state: JSON.stringify(next) })
@@ -237,27 +298,91 @@ export async function handOverLimits(
   };
 }
 
-async function applyEvent(
+/** One excursion of a rule's value: from its opening (or a trip already open) to its clearing, if seen. */
+interface Excursion {
+  onsetT: number;
+  opened: Extract<TripEvent, { type: 'opened' }> | null;
+  escalated: Extract<TripEvent, { type: 'escalated' }> | null;
+  cleared: Extract<TripEvent, { type: 'cleared' }> | null;
+}
+
+/** Group a run's events into excursions; a leading escalation or clearing continues the trip open in `from`. */
+function excursionsOf(from: RuleState, events: readonly TripEvent[]): Excursion[] {
+  const out: Excursion[] = [];
+  let cur: Excursion | null = from.open ? { onsetT: from.open.onsetT, opened: null, escalated: null, cleared: null } : null;
+  for (const e of events) {
+    if (e.type === 'opened') {
+      if (cur) out.push(cur);
+      cur = { onsetT: e.trip.onsetT, opened: e, escalated: null, cleared: null };
+      continue;
+    }
+    cur ??= { onsetT: e.trip.onsetT, opened: null, escalated: null, cleared: null };
+    if (e.type === 'escalated') cur.escalated ??= e;
+    else {
+      cur.cleared = e;
+      out.push(cur);
+      cur = null;
+    }
+  }
+  if (cur) out.push(cur);
+  return out.filter((x) => x.opened || x.escalated || x.cleared);
+}
+
+/**
+ * Write the trips of a run's events. Each excursion goes to the trip of the rule on this loop that
+ * already covers it (the live one, else one whose onset..clear span overlaps it): a live trip takes
+ * its escalation and clearing, a cleared one takes nothing. An excursion no trip covers is raised,
+ * written at once in its final form (so an excursion found in the past, already over, never collides
+ * with the live trip of a later one).
+ */
+async function applyEvents(
   trx: Transaction<Database>,
   spacecraftId: number,
   rule: StoredRule,
   info: QuantityInfo,
   loopId: number | null,
-  event: TripEvent,
+  from: RuleState,
+  events: readonly TripEvent[],
   points: Point[],
   nowMs: number,
-): Promise<TripChange> {
-  const liveTrip = () =>
-    trx
+): Promise<TripChange[]> {
+  const changes: TripChange[] = [];
+  for (const x of excursionsOf(from, events)) {
+    const endT = x.cleared ? x.cleared.t : null;
+    const covering = await trx
       .selectFrom('trip')
-      .select('id')
+      .select(['id', 'level', 'cleared_at'])
       .where('rule_id', '=', rule.id)
       .where(sql<boolean>`coalesce(loop_id, -1) = ${loopId ?? -1}`)
-      .where('cleared_at', 'is', null)
+      .where((eb) =>
+        eb.or([
+          eb('cleared_at', 'is', null),
+          eb.and([eb('cleared_at', '>=', new Date(x.onsetT)), ...(endT === null ? [] : [eb('onset_at', '<=', new Date(endT))])]),
+        ]),
+      )
+      .orderBy(sql`cleared_at IS NULL`, 'desc')
+      .orderBy('onset_at', 'desc')
+      .limit(1)
       .executeTakeFirst();
-  const t = event.trip;
-  if (event.type === 'opened') {
-    const recent = points.filter((p) => p.t <= event.t).slice(-20);
+    if (covering) {
+      if (covering.cleared_at !== null) continue;
+      if (x.escalated && covering.level === 'caution') {
+        const e = x.escalated;
+        await trx.updateTable('trip').set({ level: 'warning', escalated_at: new Date(e.t), limit_value: e.trip.limit, peak_value: e.trip.peak, last_value: e.trip.value, last_at: new Date(e.t) }).where('id', '=', covering.id).execute();
+        changes.push({ event: e, tripId: covering.id, rule, info, loopId });
+      }
+      if (x.cleared) {
+        const e = x.cleared;
+        await trx.updateTable('trip').set({ cleared_at: new Date(e.t), peak_value: e.trip.peak, last_value: e.value, last_at: new Date(e.t) }).where('id', '=', covering.id).execute();
+        changes.push({ event: e, tripId: covering.id, rule, info, loopId });
+      }
+      continue;
+    }
+    // No trip covers it: only an excursion seen opening can be raised.
+    if (!x.opened) continue;
+    const o = x.opened;
+    const last = x.cleared ?? x.escalated ?? o;
+    const recent = points.filter((p) => p.t <= o.t).slice(-20);
     const row = await trx
       .insertInto('trip')
       .values({
@@ -265,35 +390,30 @@ async function applyEvent(
         loop_id: loopId,
         kind: info.kind,
         quantity: info.key,
-        level: t.level,
-        side: t.side,
+        level: x.escalated ? 'warning' : o.trip.level,
+        side: o.trip.side,
         limit_set_id: rule.limitSetId,
         limit_set_version: rule.limitSetVersion,
         rule_id: rule.id,
-        onset_at: new Date(t.onsetT),
+        onset_at: new Date(o.trip.onsetT),
         raised_at: new Date(nowMs),
-        value: t.value,
-        peak_value: t.peak,
-        limit_value: t.limit,
-        last_value: t.value,
-        last_at: new Date(event.t),
+        escalated_at: x.escalated ? new Date(x.escalated.t) : null,
+        cleared_at: x.cleared ? new Date(x.cleared.t) : null,
+        value: o.trip.value,
+        peak_value: last.trip.peak,
+        limit_value: x.escalated ? x.escalated.trip.limit : o.trip.limit,
+        last_value: x.cleared ? x.cleared.value : last.trip.value,
+        last_at: new Date(last.t),
         evidence: JSON.stringify({
           rule: { cautionHigh: rule.cautionHigh, warningHigh: rule.warningHigh, cautionLow: rule.cautionLow, warningLow: rule.warningLow, clearHigh: rule.clearHigh, clearLow: rule.clearLow, persistence: rule.persistence },
           quantity: { key: info.key, label: info.label, unit: info.unit, source: info.source },
           points: recent,
-          window: { from: recent[0]?.t ?? event.t, to: event.t },
+          window: { from: recent[0]?.t ?? o.t, to: o.t },
         }),
       })
       .returning('id')
       .executeTakeFirstOrThrow();
-    return { event, tripId: row.id, rule, info, loopId };
+    for (const e of [o, x.escalated, x.cleared]) if (e) changes.push({ event: e, tripId: row.id, rule, info, loopId });
   }
-  const live = await liveTrip();
-  if (!live) throw new Error(`trip engine: no live trip for rule ${rule.id} loop ${loopId} to ${event.type}`);
-  if (event.type === 'escalated') {
-    await trx.updateTable('trip').set({ level: 'warning', escalated_at: new Date(event.t), limit_value: t.limit, peak_value: t.peak, last_value: t.value, last_at: new Date(event.t) }).where('id', '=', live.id).execute();
-  } else {
-    await trx.updateTable('trip').set({ cleared_at: new Date(event.t), peak_value: t.peak, last_value: event.value, last_at: new Date(event.t) }).where('id', '=', live.id).execute();
-  }
-  return { event, tripId: live.id, rule, info, loopId };
+  return changes;
 }

@@ -129,6 +129,11 @@ export interface IngestBatchTable {
   playback: number;
   first_time_tag: number | null;
   last_time_tag: number | null;
+  /** When the analysis took the batch in; null until then. */
+  analysed_at: ColumnType<Date | null, Date | string | null | undefined, Date | string | null>;
+  /** Failed analysis attempts; the batch is given up at the job's limit. */
+  analysis_attempts: Generated<number>;
+  analysis_error: ColumnType<string | null, string | null | undefined, string | null>;
 }
 
 interface PacketColumns {
@@ -276,12 +281,6 @@ export interface BurstAnalysisTable {
   analysed_at: CreatedAt;
 }
 
-export interface AnalysisCursorTable {
-  spacecraft_id: number;
-  last_batch_id: number;
-  updated_at: ColumnType<Date, Date | string | undefined, Date | string>;
-}
-
 export interface JobRunTable {
   id: Generated<number>;
   job: string;
@@ -364,7 +363,6 @@ export interface AnalysisTables {
   loop_window: LoopWindowTable;
   body_window: BodyWindowTable;
   burst_analysis: BurstAnalysisTable;
-  analysis_cursor: AnalysisCursorTable;
   job_run: JobRunTable;
   limit_set: LimitSetTable;
   limit_rule: LimitRuleTable;
