@@ -13,7 +13,7 @@ interface Props {
   height?: number;
 }
 
-/** Torque against current per sample, two periods, coloured by magnet temperature, with each period's kT line. */
+/** Torque against current per sample, two periods, coloured by magnet temperature, with each period's line τ = kT·I (the slope only, without the fits' v and v|v| terms). */
 export function ScatterChart({ baseline, recent, height = 280 }: Props) {
   const theme = useThemeName();
   const [setBox, width] = useWidth<HTMLDivElement>();
@@ -61,8 +61,8 @@ export function ScatterChart({ baseline, recent, height = 280 }: Props) {
         points: isRecent ? { show: true, size: 6, width: 1.2, stroke: colour, fill: 'transparent', space: 0 } : { show: true, size: 4, width: 0, stroke: alpha('#000000', 0), fill: colour.replace('rgb(', 'rgba(').replace(')', ', 0.55)'), space: 0 },
       });
     }
-    series.push({ label: 'baseline kT', stroke: c.muted, width: 2, dash: [6, 4], spanGaps: true, points: { show: false } });
-    series.push({ label: 'recent kT', stroke: c.second, width: 2, spanGaps: true, points: { show: false } });
+    series.push({ label: 'baseline τ = kT·I', stroke: c.muted, width: 2, dash: [6, 4], spanGaps: true, points: { show: false } });
+    series.push({ label: 'recent τ = kT·I', stroke: c.second, width: 2, spanGaps: true, points: { show: false } });
     const data = [model.xs, ...model.cols, ...model.lines] as unknown as uPlot.AlignedData;
     const u = new uPlot(
       {
@@ -108,11 +108,14 @@ export function ScatterChart({ baseline, recent, height = 280 }: Props) {
         </li>
         <li className="inline-flex items-center gap-1.5">
           <svg width="18" height="8" aria-hidden="true"><line x1="0" y1="4" x2="18" y2="4" stroke={c.muted} strokeWidth="2" strokeDasharray="6 4" /></svg>
-          baseline kT line
+          baseline τ = kT·I
         </li>
         <li className="inline-flex items-center gap-1.5">
           <svg width="18" height="8" aria-hidden="true"><line x1="0" y1="4" x2="18" y2="4" stroke={c.second} strokeWidth="2" /></svg>
-          recent kT line
+          recent τ = kT·I
+        </li>
+        <li className="basis-full" data-testid="scatter-lines-note">
+          Lines: τ = kT·I through the origin, the slope of the period's window fits only; those fits also have v and v|v| loss-correction terms, not drawn here.
         </li>
         <li className="inline-flex items-center gap-1.5">
           Magnet temperature
