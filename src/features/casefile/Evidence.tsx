@@ -47,12 +47,17 @@ const POINTS = 800;
 
 function limitLines(l: LimitLevels | undefined, unit: string, scale?: 'y' | 'y2', suffix = ''): ChartLevel[] {
   if (!l) return [];
-  const u = `${unit ? ` ${unit}` : ''}${suffix}`;
+  const u = unit ? ` ${unit}` : '';
   const out: ChartLevel[] = [];
-  if (l.cautionLow !== null) out.push({ value: l.cautionLow, kind: 'caution', label: `caution ≤ ${formatValue(l.cautionLow, 3)}${u}`, scale });
-  if (l.warningLow !== null) out.push({ value: l.warningLow, kind: 'warning', label: `warning ≤ ${formatValue(l.warningLow, 3)}${u}`, scale });
-  if (l.cautionHigh !== null) out.push({ value: l.cautionHigh, kind: 'caution', label: `caution ≥ ${formatValue(l.cautionHigh, 3)}${u}`, scale });
-  if (l.warningHigh !== null) out.push({ value: l.warningHigh, kind: 'warning', label: `warning ≥ ${formatValue(l.warningHigh, 3)}${u}`, scale });
+  const add = (value: number | null, kind: 'caution' | 'warning', sign: '≤' | '≥') => {
+    if (value === null) return;
+    const tag = `${kind} ${sign} ${formatValue(value, 3)}${u}`;
+    out.push({ value, kind, label: `${tag}${suffix}`, tag, scale });
+  };
+  add(l.cautionLow, 'caution', '≤');
+  add(l.warningLow, 'warning', '≤');
+  add(l.cautionHigh, 'caution', '≥');
+  add(l.warningHigh, 'warning', '≥');
   return out;
 }
 
@@ -132,7 +137,7 @@ function EvidenceView({ tripId, initialJson, initialParams, initialShow, initial
         // the limit set's levels raise trips; the detector's h only dates the onset
         levels: [
           ...limitLines(ev.limits.drift_cusum_lo, 'σ', undefined, ` · limit set v${ev.cusum.limitSetVersion}`),
-          { value: ev.cusum.detectorH_sigma, kind: 'decision' as const, label: `onset detector h = ${ev.cusum.detectorH_sigma}σ (dates the onset, not a limit)` },
+          { value: ev.cusum.detectorH_sigma, kind: 'decision' as const, label: `onset detector h = ${ev.cusum.detectorH_sigma}σ (dates the onset, not a limit)`, tag: `onset detector h = ${ev.cusum.detectorH_sigma}σ` },
         ],
       },
       compensation: {

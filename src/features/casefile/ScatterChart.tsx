@@ -7,6 +7,14 @@ import type { ScatterPeriod } from './casefile.schema';
 
 const BINS = 5;
 
+/** kT ± its standard error in mN·m/A, both to the decimal of the error's second significant figure. */
+function withError(kT: number | null, se: number | null): string {
+  if (kT === null) return '—';
+  if (se === null || !(se > 0)) return formatValue(kT * 1e3, 4);
+  const d = Math.min(8, Math.max(0, 1 - Math.floor(Math.log10(se * 1e3))));
+  return `${(kT * 1e3).toFixed(d)} ± ${(se * 1e3).toFixed(d)}`;
+}
+
 interface Props {
   baseline: ScatterPeriod | null;
   recent: ScatterPeriod | null;
@@ -94,7 +102,7 @@ export function ScatterChart({ baseline, recent, height = 280 }: Props) {
   const colours = Array.from({ length: BINS }, (_, b) => ramp(TEMP_STOPS, model.flat ? 0.5 : (b + 0.5) / BINS));
   const c = chartColours(theme);
   const describe = (p: ScatterPeriod | null, name: string) =>
-    p ? `${name}: ${formatUtc(p.from * 1000).slice(5, 16)}–${formatUtc(p.to * 1000).slice(11, 16)} UTC, ${p.windows} windows, kT ${formatValue(p.kT === null ? null : p.kT * 1e3, 4)} ± ${formatValue(p.kTStdErr === null ? null : p.kTStdErr * 1e3, 2)} mN·m/A` : `${name}: none`;
+    p ? `${name}: ${formatUtc(p.from * 1000).slice(5, 16)}–${formatUtc(p.to * 1000).slice(11, 16)} UTC, ${p.windows} windows, kT ${withError(p.kT, p.kTStdErr)} mN·m/A` : `${name}: none`;
   return (
     <div>
       <ul className="mb-1 flex flex-wrap gap-x-4 gap-y-1 text-xs text-muted" aria-label="Torque against current: series">

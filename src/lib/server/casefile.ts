@@ -660,10 +660,12 @@ function readingsOf(ev: Omit<EvidenceResponse, 'readings'>, rows: LoopRow[], bas
     out.heating = `Electrode-circuit resistance ${r.before !== null ? `${formatValue(r.before, 3)} → ` : ''}${formatValue(r.after, 3)} Ω${rRel !== null ? ` (${pct(rRel)})` : ''}; ${resText}. ${hot ? 'The electrodes are heating beyond what the fitted thermal model expects: look at contact resistance and wetting.' : 'No sign of electrode heating or contact degradation.'}`;
   }
   const sc = ev.scatter;
+  // in mN·m/A, as the chart's axis and legend
+  const mNm = (k: number | null) => `${formatValue(k === null ? null : k * 1e3, 3)} mN·m/A`;
   if (!sc.recent || sc.recent.kT === null) out.scatter = 'No window with a fitted kT in the recent period.';
   else {
     const bk = sc.baseline?.kT ?? null;
-    out.scatter = `Each dot is one 10 Hz sample: pump current against the fluid torque dh/dt + τ_loss. Recent kT ${formatValue(sc.recent.kT, 3)} N·m/A (${sc.recent.windows} windows)${bk !== null ? `, baseline ${formatValue(bk, 3)} N·m/A (${sc.baseline!.windows} windows): the slope changed ${pct(sc.recent.kT / bk - 1)}` : ''}; the ideal kT of the sheet is ${formatValue(sc.idealKt, 3)} N·m/A. The lines are τ = kT·I through the origin: only the slope of the windows' fits, which also carry loss-correction terms in v and v|v| that are not drawn, so dots may sit off a line where the loss model is off without kT having changed. Colour shows magnet temperature: if the colours separate along the slope, temperature explains the change.`;
+    out.scatter = `Each dot is one 10 Hz sample: pump current against the fluid torque dh/dt + τ_loss. Recent kT ${mNm(sc.recent.kT)} (${sc.recent.windows} windows)${bk !== null ? `, baseline ${mNm(bk)} (${sc.baseline!.windows} windows): the slope changed ${pct(sc.recent.kT / bk - 1)}` : ''}; the ideal kT of the sheet is ${mNm(sc.idealKt)}. The lines are τ = kT·I through the origin: only the slope of the windows' fits, which also carry loss-correction terms in v and v|v| that are not drawn, so dots may sit off a line where the loss model is off without kT having changed. Colour shows magnet temperature: if the colours separate along the slope, temperature explains the change.`;
   }
   const pu = ev.pulsation;
   if (!pu.latest) out.spectrum = 'No pressure burst was captured for this loop up to the end of the span.';
