@@ -47,8 +47,11 @@ function signedInAs(role: DemoRole) {
   });
 }
 
+const HANDLING = 'The eutectic gallium alloy in the loops attacks aluminium and many other metals';
+
+/** Every evidence chart drew a plot (not its empty note) and has its reading. */
 async function chartsRendered(page: Page) {
-  for (const key of ['effectiveness', 'drift', 'scatter', 'pressure', 'spectrum', 'waterfall', 'ledger']) {
+  for (const key of ['effectiveness', 'drift', 'scatter', 'compensation', 'pressure', 'heating', 'spectrum', 'waterfall', 'ledger']) {
     const fig = page.locator(`figure[data-evidence="${key}"]`);
     await expect(fig.locator('canvas').first(), key).toBeVisible();
     await expect(fig.locator('figcaption'), key).not.toBeEmpty();
@@ -70,6 +73,13 @@ test.describe('as the analyst', () => {
     await chartsRendered(page);
     await expect(page.locator('figure[data-evidence="effectiveness"] figcaption')).toContainText('drift baseline');
     await expect(page.getByText(/Estimated onset .* UTC/).first()).toBeVisible();
+    // the drift chart and its reading name the limit set's CUSUM levels, and the detector's h as what it is
+    const drift = page.locator('figure[data-evidence="drift"]');
+    await expect(drift.getByText(/caution ≥ \d+ σ · limit set v\d+/)).toBeVisible();
+    await expect(drift.getByText(/onset detector h = 7σ \(dates the onset, not a limit\)/)).toBeVisible();
+    await expect(drift.locator('figcaption')).toContainText('limit set v');
+    await expect(page.locator('figure[data-evidence="scatter"]').getByTestId('scatter-lines-note')).toContainText('τ = kT·I through the origin');
+    await expect(page.getByRole('contentinfo', { name: 'Cautions' })).toContainText(HANDLING);
     await page.screenshot({ path: 'test-results/screens/casefile-light.png', fullPage: true });
 
     // dark theme for the control room
@@ -151,6 +161,9 @@ test.describe('as the analyst', () => {
     await page.getByRole('link', { name: 'Printable report' }).click();
     await expect(page.getByText('Casefile report')).toBeVisible();
     await expect(page.locator('figure[data-evidence="effectiveness"] canvas').first()).toBeVisible();
+    await expect(page.getByText(HANDLING)).toBeVisible();
+    await expect(page.getByRole('cell', { name: /^Effectiveness, last \d+ windows? \(/ })).toBeVisible();
+    await page.screenshot({ path: 'test-results/screens/casefile-report.png', fullPage: true });
     await page.emulateMedia({ media: 'print' });
     await page.screenshot({ path: 'test-results/screens/casefile-report-print.png', fullPage: true });
     await page.emulateMedia({ media: 'screen' });
@@ -192,5 +205,8 @@ test.describe('as the operator', () => {
     const res = await page.request.post(`/api/trips/${trip.id}/resolve`, { data: { conclusion: 'Looks fine from here.' } });
     expect(res.status()).toBe(403);
     await page.screenshot({ path: 'test-results/screens/casefile-operator.png', fullPage: false });
+    // the sheets hold the loops' hardware: the handling caution is there too
+    await page.goto(`/spacecraft/${KEY}/sheets`);
+    await expect(page.getByRole('contentinfo', { name: 'Cautions' })).toContainText(HANDLING);
   });
 });

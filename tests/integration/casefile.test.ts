@@ -1,7 +1,7 @@
 import fs from 'node:fs';
 import path from 'node:path';
 import { beforeAll, describe, expect, it } from 'vitest';
-import { sampleStandardDeviation } from 'simple-statistics';
+import { mean as ssMean, sampleStandardDeviation } from 'simple-statistics';
 import MLR from 'ml-regression-multivariate-linear';
 import { db, clientAs, Client, type TestRole } from './support';
 import { pool } from '../../src/lib/server/db';
@@ -9,14 +9,15 @@ import { config } from '../../src/lib/server/config';
 import { generatePackets } from '../../ingest/generator';
 import { parseScenario, type Scenario } from '../../ingest/scenario.schema';
 import { spacecraftSheetSchema, type SpacecraftSheet } from '../../src/lib/spacecraft-sheet.schema';
-import { insertSpacecraftWithSheet } from '../../src/lib/server/spacecraft';
+import { insertSheet, insertSpacecraftWithSheet } from '../../src/lib/server/spacecraft';
 import { insertLimitSet } from '../../src/lib/server/limit-sets';
 import { DEFAULT_RULES } from '../../src/lib/limits/defaults';
 import { ingestBody } from '../../src/lib/server/ingest';
 import { BASELINE_WINDOWS, runAnalysisJob } from '../../src/lib/server/analysis-job';
-import { magnitudeStdErr, stepChangePoint, weightedKt } from '../../src/lib/server/casefile';
+import { defaultSpan, loadEvidence, magnitudeStdErr, resolveSpan, stepChangePoint, weightedKt } from '../../src/lib/server/casefile';
+import { HttpError } from '../../src/lib/server/http';
 import { checkAttachmentType, sniffBinaryType, TextCheck } from '../../src/lib/server/attachments';
-import type { CasefileNote, EvidenceResponse, RawWindowResponse } from '../../src/features/casefile/casefile.schema';
+import { MAX_SPAN_DAYS, RECENT_WINDOWS, type CasefileNote, type EvidenceResponse, type RawWindowResponse } from '../../src/features/casefile/casefile.schema';
 
 /**
  * The Casefile over a trip raised the real way: the torque-constant-loss scenario flown through
@@ -176,10 +177,228 @@ describe('evidence of a torque-constant-loss trip', () => {
   });
 
   it('rejects a bad span, and answers 404 for a trip that does not exist', async () => {
-    expect((await as.analyst!.get(`/api/trips/${tripId}/evidence?from=2026-12-02T00:00:00Z&to=2026-12-01T00:00:00Z`)).status).toBe(400);
+    const reversed = await as.analyst!.get(`/api/trips/${tripId}/evidence?from=2026-12-02T00:00:00Z&to=2026-12-01T00:00:00Z`);
+    expect(reversed.status).toBe(400);
+    expect(((await reversed.json()) as { error: { fields: Record<string, string[]> } }).error.fields.to?.[0]).toMatch(/must be after "from"/);
     expect((await as.analyst!.get(`/api/trips/${tripId}/evidence?loop=3`)).status).toBe(400);
     expect((await as.analyst!.get(`/api/trips/${tripId}/evidence?points=3`)).status).toBe(400);
     expect((await as.analyst!.get('/api/trips/99999999/evidence')).status).toBe(404);
+  });
+});
+
+type ErrorBody = { error: { code: string; message: string; fields?: Record<string, string[]> } };
+
+describe('the span: one set of defaults and checks for the evidence, the CSV, the raw samples and the report', () => {
+  const trip = { onset_at: new Date('2026-06-01T12:00:30Z'), last_at: new Date('2026-06-01T12:20:10Z'), cleared_at: null };
+  const def = defaultSpan(trip);
+  const problem = (q: { from?: string; to?: string }) => {
+    try {
+      resolveSpan(trip, q);
+      return null;
+    } catch (e) {
+      expect(e).toBeInstanceOf(HttpError);
+      return (e as HttpError).fields;
+    }
+  };
+  const at = (ms: number) => new Date(ms).toISOString();
+
+  it('fills a missing end from the span around the trip, and keeps the span running forward [derived]', () => {
+    expect(def).toEqual({ fromMs: Date.parse('2026-06-01T11:15:00Z'), toMs: Date.parse('2026-06-01T12:36:00Z') });
+    const len = def.toMs - def.fromMs;
+    expect(resolveSpan(trip, {})).toEqual(def);
+    // one end given inside the default span: the other end is the default's
+    expect(resolveSpan(trip, { from: '2026-06-01T11:45:00Z' })).toEqual({ fromMs: Date.parse('2026-06-01T11:45:00Z'), toMs: def.toMs });
+    expect(resolveSpan(trip, { to: '2026-06-01T12:10:00Z' })).toEqual({ fromMs: def.fromMs, toMs: Date.parse('2026-06-01T12:10:00Z') });
+    // one end given past the other default end: the span keeps the default's length
+    expect(resolveSpan(trip, { from: '2026-06-02T00:00:00Z' })).toEqual({ fromMs: Date.parse('2026-06-02T00:00:00Z'), toMs: Date.parse('2026-06-02T00:00:00Z') + len });
+    expect(resolveSpan(trip, { to: '2026-05-30T00:00:00Z' })).toEqual({ fromMs: Date.parse('2026-05-30T00:00:00Z') - len, toMs: Date.parse('2026-05-30T00:00:00Z') });
+    // exactly the longest span passes
+    expect(resolveSpan(trip, { from: at(def.toMs - MAX_SPAN_DAYS * 86_400_000) }).fromMs).toBe(def.toMs - MAX_SPAN_DAYS * 86_400_000);
+  });
+
+  it('names the end that is wrong: an early "from" alone, a late "to" alone, a reversed or too long pair', () => {
+    expect(Object.keys(problem({ from: '2023-01-01T00:00:00Z' })!)).toEqual(['from']);
+    expect(problem({ from: '2023-01-01T00:00:00Z' })!.from![0]).toMatch(new RegExp(`at most ${MAX_SPAN_DAYS} days`));
+    expect(Object.keys(problem({ from: at(def.toMs - MAX_SPAN_DAYS * 86_400_000 - 60_000) })!)).toEqual(['from']);
+    expect(Object.keys(problem({ to: '2027-06-01T00:00:00Z' })!)).toEqual(['to']);
+    expect(problem({ from: '2026-06-01T12:00:00Z', to: '2026-06-01T11:00:00Z' })!.to![0]).toMatch(/must be after "from"/);
+    expect(problem({ from: '2026-06-01T12:00:00Z', to: '2026-06-01T12:00:00Z' })!.to![0]).toMatch(/must be after "from"/);
+    expect(Object.keys(problem({ from: '2026-01-01T00:00:00Z', to: '2026-06-01T00:00:00Z' })!)).toEqual(['to']);
+  });
+
+  it('the evidence, the CSV and the report answer 400 for the same bad spans, naming the field', async () => {
+    const cases: [string, 'from' | 'to'][] = [
+      ['from=2020-01-01T00:00:00Z', 'from'],
+      ['to=2030-01-01T00:00:00Z', 'to'],
+      ['from=2026-12-02T00:00:00Z&to=2026-12-01T00:00:00Z', 'to'],
+    ];
+    for (const [q, field] of cases) {
+      for (const route of ['evidence', 'evidence.csv']) {
+        const res = await as.analyst!.get(`/api/trips/${tripId}/${route}?${q}`);
+        expect(res.status, `${route}?${q}`).toBe(400);
+        const body = (await res.json()) as ErrorBody;
+        expect(Object.keys(body.error.fields ?? {}), `${route}?${q}`).toEqual([field]);
+      }
+      const report = await as.analyst!.get(`/trips/${tripId}/report?${q}`);
+      expect(report.status, `report?${q}`).toBe(400);
+      const html = await report.text();
+      expect(html).toContain(`<code>${field}</code>`);
+      expect(html).toContain(`href="/trips/${tripId}/report"`);
+      // the Casefile page itself stays usable: it says what was wrong and shows the span around the trip
+      const page = await as.analyst!.get(`/trips/${tripId}?${q}`);
+      expect(page.status).toBe(200);
+      expect(await page.text()).toContain('The Casefile shows the span around the trip.');
+    }
+    const raw = await as.analyst!.get(`/api/trips/${tripId}/raw?window=yesterday`);
+    expect(raw.status).toBe(400);
+    expect(((await raw.json()) as ErrorBody).error.fields?.window).toBeDefined();
+  });
+
+  it('a span with one end gives the CSV the same windows as the evidence', async () => {
+    const full = (await (await as.analyst!.get(`/api/trips/${tripId}/evidence`)).json()) as EvidenceResponse;
+    for (const q of [`from=${encodeURIComponent(at(Date.parse(full.span.from) + 20 * 60_000))}`, `to=${encodeURIComponent(at(Date.parse(full.span.to) - 20 * 60_000))}`]) {
+      const ev = (await (await as.analyst!.get(`/api/trips/${tripId}/evidence?${q}`)).json()) as EvidenceResponse;
+      expect(ev.windows, q).toBeGreaterThan(5);
+      const csv = await as.analyst!.get(`/api/trips/${tripId}/evidence.csv?${q}`);
+      expect(csv.status).toBe(200);
+      const lines = (await csv.text()).trim().split(/\r\n/).slice(1);
+      const times = lines.map((l) => Date.parse(l.split(',')[0]!));
+      expect(Math.min(...times), q).toBeGreaterThanOrEqual(Date.parse(ev.span.from));
+      expect(Math.max(...times), q).toBeLessThan(Date.parse(ev.span.to));
+      const stored = await db
+        .selectFrom('loop_window')
+        .select('window_start')
+        .where('spacecraft_id', '=', flown.sc.id)
+        .where('loop_id', '=', 0)
+        .where('window_start', '>=', new Date(ev.span.from))
+        .where('window_start', '<', new Date(ev.span.to))
+        .execute();
+      expect(stored.length).toBe(ev.windows);
+      for (const s of stored) expect(times).toContain(s.window_start.getTime());
+    }
+  });
+});
+
+describe('the numbers the report and readings quote come from the full rows', () => {
+  it('the last windows are the last real windows, not the last downsampled points', async () => {
+    const ev = (await (await as.analyst!.get(`/api/trips/${tripId}/evidence?points=20`)).json()) as EvidenceResponse;
+    const rows = await db
+      .selectFrom('loop_window')
+      .select(['window_start', 'effectiveness', 'pressure_effectiveness', 'resistance_ohm'])
+      .where('spacecraft_id', '=', flown.sc.id)
+      .where('loop_id', '=', 0)
+      .where('window_start', '>=', new Date(ev.span.from))
+      .where('window_start', '<', new Date(ev.span.to))
+      .orderBy('window_start')
+      .execute();
+    for (const col of ['effectiveness', 'pressure_effectiveness', 'resistance_ohm'] as const) {
+      const last = rows.filter((r) => r[col] !== null).slice(-RECENT_WINDOWS);
+      expect(last.length, col).toBe(RECENT_WINDOWS);
+      const r = ev.recent[col];
+      expect(r.windows, col).toBe(RECENT_WINDOWS);
+      expect(r.from, col).toBe(last[0]!.window_start.getTime() / 1000);
+      expect(r.to, col).toBe(last[last.length - 1]!.window_start.getTime() / 1000);
+      expect(r.mean!, col).toBeCloseTo(ssMean(last.map((x) => x[col]!)), 12);
+    }
+    // with 20 points over the span, the last ten downsampled points reach back well before the last ten windows
+    expect(ev.series.effectiveness!.t.slice(-RECENT_WINDOWS)[0]!).toBeLessThan(ev.recent.effectiveness.from!);
+    const report = await (await as.analyst!.get(`/trips/${tripId}/report`)).text();
+    expect(report).toMatch(/Effectiveness, last 10 windows \(\d\d:\d\d–\d\d:\d\d UTC\)/);
+  });
+
+  it('the drift chart and reading use the limit set\'s CUSUM levels; the detector\'s h is named as the onset detector\'s', async () => {
+    const ev = (await (await as.analyst!.get(`/api/trips/${tripId}/evidence`)).json()) as EvidenceResponse;
+    const rule = DEFAULT_RULES.find((r) => r.quantity === 'drift_cusum_lo')!;
+    expect(ev.cusum.caution_sigma).toBe(rule.cautionHigh);
+    expect(ev.cusum.warning_sigma).toBe(rule.warningHigh);
+    expect(ev.cusum.detectorH_sigma).toBe(7);
+    expect(ev.limits.drift_cusum_lo?.cautionHigh).toBe(rule.cautionHigh);
+    const rows = await db
+      .selectFrom('loop_window')
+      .select(['window_start', 'drift_cusum_lo'])
+      .where('spacecraft_id', '=', flown.sc.id)
+      .where('loop_id', '=', 0)
+      .where('window_start', '>=', new Date(ev.span.from))
+      .where('window_start', '<', new Date(ev.span.to))
+      .where('drift_cusum_lo', 'is not', null)
+      .orderBy('window_start')
+      .execute();
+    const first = (h: number) => rows.find((r) => r.drift_cusum_lo! >= h)?.window_start.getTime() ?? null;
+    expect(ev.cusum.firstAtCaution).toBe(first(rule.cautionHigh!)! / 1000);
+    expect(ev.cusum.firstAtDetector).toBe(first(7)! / 1000);
+    expect(ev.cusum.peakLo!.value).toBe(Math.max(...rows.map((r) => r.drift_cusum_lo!)));
+    expect(ev.readings.drift).toContain(`caution limit of ${rule.cautionHigh}σ`);
+    expect(ev.readings.drift).toContain(`limit set v${ev.limitSetVersion}`);
+    expect(ev.readings.drift).toMatch(/onset detector's own decision level, h = 7σ, was crossed at .*raises no trip/);
+    expect(ev.readings.drift).not.toMatch(/its decision level of 7σ/);
+    const report = await (await as.analyst!.get(`/trips/${tripId}/report`)).text();
+    expect(report).toContain(`caution ≥ ${rule.cautionHigh}σ, warning ≥ ${rule.warningHigh}σ`);
+    expect(report).toContain('onset detector h = 7σ (dates the onset, not a limit)');
+  });
+
+  it('says the scatter lines are the slope only, and has data for the compensation and heating charts', async () => {
+    const ev = (await (await as.analyst!.get(`/api/trips/${tripId}/evidence`)).json()) as EvidenceResponse;
+    expect(ev.readings.scatter).toContain('τ = kT·I through the origin');
+    expect(ev.readings.scatter).toContain('v|v|');
+    for (const k of ['compensated_effectiveness', 'magnet_temp_mean_c', 'resistance_ohm', 'thermal_residual_k']) expect(ev.series[k]!.t.length, k).toBeGreaterThan(10);
+  });
+
+  it('shows the handling caution where hardware handling comes up: the report, the Casefile and the sheets', async () => {
+    const caution = "The eutectic gallium alloy in the loops attacks aluminium and many other metals; ground handling of hardware follows the laboratory's own safety rules and local regulations.";
+    const unescape = (h: string) => h.replace(/&#39;|&#x27;/g, "'");
+    for (const path of [`/trips/${tripId}/report`, `/trips/${tripId}`, `/spacecraft/${flown.sc.key}/sheets`]) {
+      const res = await as.operator!.get(path);
+      expect(res.status, path).toBe(200);
+      expect(unescape(await res.text()), path).toContain(caution);
+    }
+    // not on pages that have nothing to do with hardware
+    expect(unescape(await (await as.operator!.get('/trips')).text())).not.toContain(caution);
+  });
+});
+
+describe('the baseline of a trip under an older sheet', () => {
+  it('comes from the sheet in force at the onset, before the trip, not from windows under a newer sheet', async () => {
+    const key = `CB${Date.now().toString(36).toUpperCase().slice(-6)}`;
+    const raw = spacecraftSheetSchema.parse(JSON.parse(fs.readFileSync('ingest/fleet/MR-1.json', 'utf8')));
+    const sheet: SpacecraftSheet = { ...raw, spacecraft: { key, name: `Baseline ${key}` } };
+    const t0 = Math.floor(Date.now() / 60_000) * 60_000 - 6 * 3600_000;
+    const min = (n: number) => t0 + n * 60_000;
+    // healthy 0.90 for 70 windows, the trip's drop to 0.60 for 10, then (after a newer sheet took over) 0.50 for 80
+    let seed = 7;
+    const noise = () => ((seed = (seed * 1103515245 + 12345) % 2147483648) / 2147483648 - 0.5) * 0.01;
+    const windows: { n: number; v: number }[] = [];
+    for (let n = 0; n < 70; n++) windows.push({ n, v: 0.9 + noise() });
+    for (let n = 70; n < 80; n++) windows.push({ n, v: 0.6 + noise() });
+    for (let n = 90; n < 170; n++) windows.push({ n, v: 0.5 + noise() });
+    const id = await db.transaction().execute(async (trx) => {
+      const sc = await insertSpacecraftWithSheet(trx, { ...sheet, effectiveFrom: new Date(min(0)).toISOString() }, null);
+      await insertSheet(trx, sc.id, { ...sheet, effectiveFrom: new Date(min(90)).toISOString() }, null);
+      await trx
+        .insertInto('loop_window')
+        .values(windows.map((w) => ({ spacecraft_id: sc.id, loop_id: 0, window_start: new Date(min(w.n)), window_s: 60, samples: 600, effectiveness: w.v, compensated_effectiveness: w.v })))
+        .execute();
+      const trip = await trx
+        .insertInto('trip')
+        .values({
+          spacecraft_id: sc.id, loop_id: 0, kind: 'torque-constant-drift', quantity: 'effectiveness', level: 'caution', side: 'low',
+          limit_set_id: null, limit_set_version: 1, rule_id: null, onset_at: new Date(min(70)), raised_at: new Date(min(72)), last_at: new Date(min(79)),
+          cleared_at: new Date(min(80)), value: 0.6, peak_value: 0.59, limit_value: 0.75, last_value: 0.6, evidence: '{}',
+        })
+        .returning('id')
+        .executeTakeFirstOrThrow();
+      return trip.id;
+    });
+    const ev = await loadEvidence(db, id, { points: 800 });
+    expect(ev.baseline.source).toBe('drift-baseline');
+    expect(ev.baseline.from).toBe(min(0) / 1000);
+    expect(ev.baseline.to! * 1000).toBeLessThanOrEqual(min(70));
+    const healthy = windows.filter((w) => w.n < BASELINE_WINDOWS).map((w) => w.v);
+    expect(ev.baseline.n).toBe(BASELINE_WINDOWS);
+    expect(ev.baseline.mean!).toBeCloseTo(ssMean(healthy), 12);
+    // the onset is the step at window 70, dated against that baseline
+    expect(ev.onset.method).toBe('cusum');
+    expect(ev.onset.at).toBe(new Date(min(70)).toISOString());
+    expect(ev.readings.effectiveness).toContain('drift baseline');
   });
 });
 

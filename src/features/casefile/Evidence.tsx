@@ -2,7 +2,7 @@ import { useEffect, useMemo, useState } from 'react';
 import { QueryClientProvider, keepPreviousData, useQuery } from '@tanstack/react-query';
 import { getQueryClient } from '../../lib/query-client';
 import { evidenceQuery, evidenceSearch, type EvidenceParams } from './casefile.queries';
-import { EVIDENCE_KEYS, MAX_SPAN_DAYS, type EvidenceKey, type EvidenceResponse, type LimitLevels } from './casefile.schema';
+import { EVIDENCE_KEYS, spanProblem, type EvidenceKey, type EvidenceResponse, type LimitLevels } from './casefile.schema';
 import { TimeChart, type ChartLevel, type ChartLine } from './TimeChart';
 import { ScatterChart } from './ScatterChart';
 import { SpectrumChart, Waterfall } from './SpectrumChart';
@@ -45,14 +45,19 @@ interface Props {
 
 const POINTS = 800;
 
-function limitLines(l: LimitLevels | undefined, unit: string, scale?: 'y' | 'y2'): ChartLevel[] {
+function limitLines(l: LimitLevels | undefined, unit: string, scale?: 'y' | 'y2', suffix = ''): ChartLevel[] {
   if (!l) return [];
   const u = unit ? ` ${unit}` : '';
   const out: ChartLevel[] = [];
-  if (l.cautionLow !== null) out.push({ value: l.cautionLow, kind: 'caution', label: `caution ≤ ${formatValue(l.cautionLow, 3)}${u}`, scale });
-  if (l.warningLow !== null) out.push({ value: l.warningLow, kind: 'warning', label: `warning ≤ ${formatValue(l.warningLow, 3)}${u}`, scale });
-  if (l.cautionHigh !== null) out.push({ value: l.cautionHigh, kind: 'caution', label: `caution ≥ ${formatValue(l.cautionHigh, 3)}${u}`, scale });
-  if (l.warningHigh !== null) out.push({ value: l.warningHigh, kind: 'warning', label: `warning ≥ ${formatValue(l.warningHigh, 3)}${u}`, scale });
+  const add = (value: number | null, kind: 'caution' | 'warning', sign: '≤' | '≥') => {
+    if (value === null) return;
+    const tag = `${kind} ${sign} ${formatValue(value, 3)}${u}`;
+    out.push({ value, kind, label: `${tag}${suffix}`, tag, scale });
+  };
+  add(l.cautionLow, 'caution', '≤');
+  add(l.warningLow, 'warning', '≤');
+  add(l.cautionHigh, 'caution', '≥');
+  add(l.warningHigh, 'warning', '≥');
   return out;
 }
 
@@ -129,7 +134,11 @@ function EvidenceView({ tripId, initialJson, initialParams, initialShow, initial
       },
       drift: {
         lines: [L('drift_cusum_lo', 'CUSUM down', 'σ', HUES.gallium, { width: 2 }), L('drift_cusum_hi', 'CUSUM up', 'σ', c.muted)],
-        levels: [{ value: ev.cusumDecision_sigma, kind: 'decision' as const, label: `decision level h = ${ev.cusumDecision_sigma}σ` }, ...limitLines(ev.limits.drift_cusum_lo, 'σ')],
+        // the limit set's levels raise trips; the detector's h only dates the onset
+        levels: [
+          ...limitLines(ev.limits.drift_cusum_lo, 'σ', undefined, ` · limit set v${ev.cusum.limitSetVersion}`),
+          { value: ev.cusum.detectorH_sigma, kind: 'decision' as const, label: `onset detector h = ${ev.cusum.detectorH_sigma}σ (dates the onset, not a limit)`, tag: `onset detector h = ${ev.cusum.detectorH_sigma}σ` },
+        ],
       },
       compensation: {
         lines: [
@@ -159,7 +168,7 @@ function EvidenceView({ tripId, initialJson, initialParams, initialShow, initial
         levels: limitLines(scaled(ev.limits.ledger_residual_nm, 1e6), 'µN·m'),
       },
     };
-  }, [s, ev.baseline.mean, ev.limits, ev.cusumDecision_sigma, c.second, c.muted]);
+  }, [s, ev.baseline.mean, ev.limits, ev.cusum.limitSetVersion, ev.cusum.detectorH_sigma, c.second, c.muted]);
 
   const figure = (key: EvidenceKey, body: React.ReactNode) =>
     show.includes(key) ? (
@@ -222,8 +231,9 @@ function EvidenceView({ tripId, initialJson, initialParams, initialShow, initial
                 e.preventDefault();
                 const from = fromInput(fromField), to = fromInput(toField);
                 if (!from || !to) return setSpanError('Write each time as YYYY-MM-DD HH:MM, in UTC.');
-                if (Date.parse(to) <= Date.parse(from)) return setSpanError('“To” must be after “From”.');
-                if (Date.parse(to) - Date.parse(from) > MAX_SPAN_DAYS * 86_400_000) return setSpanError(`A span is at most ${MAX_SPAN_DAYS} days.`);
+                // the same check as the server's
+                const problem = spanProblem(Date.parse(from), Date.parse(to), { from: true, to: true });
+                if (problem) return setSpanError(problem.message);
                 setSpanError(null);
                 setParams((x) => ({ ...x, from, to }));
               }}

@@ -7,13 +7,21 @@ import type { ScatterPeriod } from './casefile.schema';
 
 const BINS = 5;
 
+/** kT ± its standard error in mN·m/A, both to the decimal of the error's second significant figure. */
+function withError(kT: number | null, se: number | null): string {
+  if (kT === null) return '—';
+  if (se === null || !(se > 0)) return formatValue(kT * 1e3, 4);
+  const d = Math.min(8, Math.max(0, 1 - Math.floor(Math.log10(se * 1e3))));
+  return `${(kT * 1e3).toFixed(d)} ± ${(se * 1e3).toFixed(d)}`;
+}
+
 interface Props {
   baseline: ScatterPeriod | null;
   recent: ScatterPeriod | null;
   height?: number;
 }
 
-/** Torque against current per sample, two periods, coloured by magnet temperature, with each period's kT line. */
+/** Torque against current per sample, two periods, coloured by magnet temperature, with each period's line τ = kT·I (the slope only, without the fits' v and v|v| terms). */
 export function ScatterChart({ baseline, recent, height = 280 }: Props) {
   const theme = useThemeName();
   const [setBox, width] = useWidth<HTMLDivElement>();
@@ -61,8 +69,8 @@ export function ScatterChart({ baseline, recent, height = 280 }: Props) {
         points: isRecent ? { show: true, size: 6, width: 1.2, stroke: colour, fill: 'transparent', space: 0 } : { show: true, size: 4, width: 0, stroke: alpha('#000000', 0), fill: colour.replace('rgb(', 'rgba(').replace(')', ', 0.55)'), space: 0 },
       });
     }
-    series.push({ label: 'baseline kT', stroke: c.muted, width: 2, dash: [6, 4], spanGaps: true, points: { show: false } });
-    series.push({ label: 'recent kT', stroke: c.second, width: 2, spanGaps: true, points: { show: false } });
+    series.push({ label: 'baseline τ = kT·I', stroke: c.muted, width: 2, dash: [6, 4], spanGaps: true, points: { show: false } });
+    series.push({ label: 'recent τ = kT·I', stroke: c.second, width: 2, spanGaps: true, points: { show: false } });
     const data = [model.xs, ...model.cols, ...model.lines] as unknown as uPlot.AlignedData;
     const u = new uPlot(
       {
@@ -94,7 +102,7 @@ export function ScatterChart({ baseline, recent, height = 280 }: Props) {
   const colours = Array.from({ length: BINS }, (_, b) => ramp(TEMP_STOPS, model.flat ? 0.5 : (b + 0.5) / BINS));
   const c = chartColours(theme);
   const describe = (p: ScatterPeriod | null, name: string) =>
-    p ? `${name}: ${formatUtc(p.from * 1000).slice(5, 16)}–${formatUtc(p.to * 1000).slice(11, 16)} UTC, ${p.windows} windows, kT ${formatValue(p.kT === null ? null : p.kT * 1e3, 4)} ± ${formatValue(p.kTStdErr === null ? null : p.kTStdErr * 1e3, 2)} mN·m/A` : `${name}: none`;
+    p ? `${name}: ${formatUtc(p.from * 1000).slice(5, 16)}–${formatUtc(p.to * 1000).slice(11, 16)} UTC, ${p.windows} windows, kT ${withError(p.kT, p.kTStdErr)} mN·m/A` : `${name}: none`;
   return (
     <div>
       <ul className="mb-1 flex flex-wrap gap-x-4 gap-y-1 text-xs text-muted" aria-label="Torque against current: series">
@@ -108,11 +116,14 @@ export function ScatterChart({ baseline, recent, height = 280 }: Props) {
         </li>
         <li className="inline-flex items-center gap-1.5">
           <svg width="18" height="8" aria-hidden="true"><line x1="0" y1="4" x2="18" y2="4" stroke={c.muted} strokeWidth="2" strokeDasharray="6 4" /></svg>
-          baseline kT line
+          baseline τ = kT·I
         </li>
         <li className="inline-flex items-center gap-1.5">
           <svg width="18" height="8" aria-hidden="true"><line x1="0" y1="4" x2="18" y2="4" stroke={c.second} strokeWidth="2" /></svg>
-          recent kT line
+          recent τ = kT·I
+        </li>
+        <li className="basis-full" data-testid="scatter-lines-note">
+          Lines: τ = kT·I through the origin, the slope of the period's window fits only; those fits also have v and v|v| loss-correction terms, not drawn here.
         </li>
         <li className="inline-flex items-center gap-1.5">
           Magnet temperature

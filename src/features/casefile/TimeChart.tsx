@@ -22,7 +22,10 @@ export interface ChartLine {
 export interface ChartLevel {
   value: number;
   kind: 'caution' | 'warning' | 'decision' | 'baseline';
+  /** The legend's text. */
   label: string;
+  /** A shorter text beside the line on the plot (default: the label). */
+  tag?: string;
   scale?: 'y' | 'y2';
 }
 
@@ -183,13 +186,11 @@ export function TimeChart({ title, lines, levels = [], marks = [], shades = [], 
             const dpr = devicePixelRatio;
             ctx.save();
             ctx.font = `${10 * dpr}px "Inter Tight", system-ui, sans-serif`;
-            const used: number[] = [];
+            // labels sit above their line at the right; one that would overlap a label drawn already moves left of it
+            const boxes: { x0: number; x1: number; y: number }[] = [];
             for (const l of levels) {
               const y = u.valToPos(l.value, l.scale ?? 'y', true);
               if (!(y >= u.bbox.top && y <= u.bbox.top + u.bbox.height)) continue;
-              // a label close to one already drawn goes below its line, then further along
-              const near = used.filter((p) => Math.abs(p - y) < 11 * dpr).length;
-              used.push(y);
               ctx.strokeStyle = LEVEL_COLOUR[l.kind];
               ctx.lineWidth = dpr;
               ctx.setLineDash(LEVEL_DASH[l.kind].map((d) => d * dpr));
@@ -197,9 +198,16 @@ export function TimeChart({ title, lines, levels = [], marks = [], shades = [], 
               ctx.moveTo(u.bbox.left, y);
               ctx.lineTo(u.bbox.left + u.bbox.width, y);
               ctx.stroke();
+              const text = l.tag ?? l.label;
+              const w = ctx.measureText(text).width;
+              const ty = Math.max(u.bbox.top + 10 * dpr, y - 3 * dpr);
+              let right = u.bbox.left + u.bbox.width - 4 * dpr;
+              const overlapping = () => boxes.find((b) => Math.abs(b.y - ty) < 11 * dpr && right > b.x0 - 8 * dpr && right - w < b.x1 + 8 * dpr);
+              for (let hit = overlapping(); hit; hit = overlapping()) right = hit.x0 - 12 * dpr;
+              boxes.push({ x0: right - w, x1: right, y: ty });
               ctx.fillStyle = LEVEL_COLOUR[l.kind];
               ctx.textAlign = 'right';
-              ctx.fillText(l.label, u.bbox.left + u.bbox.width - 4 * dpr - (near > 1 ? 140 * dpr * (near - 1) : 0), near % 2 === 1 ? y + 11 * dpr : y - 3 * dpr);
+              ctx.fillText(text, right, ty);
             }
             ctx.setLineDash([]);
             for (const m of marks) {

@@ -15,21 +15,43 @@ const instant = z.preprocess(
 export const EVIDENCE_KEYS = ['effectiveness', 'drift', 'scatter', 'compensation', 'pressure', 'heating', 'spectrum', 'waterfall', 'ledger'] as const;
 export type EvidenceKey = (typeof EVIDENCE_KEYS)[number];
 
-/** GET /api/trips/[id]/evidence (and .csv) and the Casefile's permalink: ?from=&to=&points=&loop=. */
-export const evidenceQuerySchema = z
-  .object({
-    from: instant,
-    to: instant,
-    points: z.preprocess(blankToUndefined, z.coerce.number().int('points must be a whole number').min(20, 'points must be at least 20').max(5000, 'points must be at most 5000').default(DEFAULT_POINTS)),
-    loop: z.preprocess(blankToUndefined, z.coerce.number().int('loop must be a whole number').min(0, 'loop must be 0–3').max(3, 'loop must be 0–3').optional()),
-  })
-  .superRefine((q, ctx) => {
-    if (!q.from || !q.to) return;
-    const span = Date.parse(q.to) - Date.parse(q.from);
-    if (span <= 0) ctx.addIssue({ code: z.ZodIssueCode.custom, path: ['to'], message: '"to" must be after "from".' });
-    else if (span > MAX_SPAN_DAYS * 86_400_000) ctx.addIssue({ code: z.ZodIssueCode.custom, path: ['to'], message: `A span is at most ${MAX_SPAN_DAYS} days.` });
-  });
+/**
+ * GET /api/trips/[id]/evidence (and .csv), the report and the Casefile's permalink: ?from=&to=&points=&loop=.
+ * Either end of the span may be left out (it defaults around the trip); the span itself is checked
+ * by `spanProblem` once both ends are known.
+ */
+export const evidenceQuerySchema = z.object({
+  from: instant,
+  to: instant,
+  points: z.preprocess(blankToUndefined, z.coerce.number().int('points must be a whole number').min(20, 'points must be at least 20').max(5000, 'points must be at most 5000').default(DEFAULT_POINTS)),
+  loop: z.preprocess(blankToUndefined, z.coerce.number().int('loop must be a whole number').min(0, 'loop must be 0–3').max(3, 'loop must be 0–3').optional()),
+});
 export type EvidenceQuery = z.infer<typeof evidenceQuerySchema>;
+
+/** Which end of a span a problem is blamed on, and what is wrong. */
+export interface SpanProblem {
+  field: 'from' | 'to';
+  message: string;
+}
+
+/**
+ * What is wrong with a span, or null: it must run forward and cover at most MAX_SPAN_DAYS. `given`
+ * says which ends the caller wrote; the problem is put on an end the caller gave (the later one when
+ * both were given), so a span that defaulted on one side blames the side that was asked for.
+ */
+export function spanProblem(fromMs: number, toMs: number, given: { from: boolean; to: boolean }): SpanProblem | null {
+  const blame: 'from' | 'to' = given.to || !given.from ? 'to' : 'from';
+  if (!Number.isFinite(fromMs)) return { field: 'from', message: '"from" is not a time: give an ISO 8601 time with a zone, e.g. 2026-12-01T00:00:00Z.' };
+  if (!Number.isFinite(toMs)) return { field: 'to', message: '"to" is not a time: give an ISO 8601 time with a zone, e.g. 2026-12-01T00:00:00Z.' };
+  const iso = (ms: number) => new Date(ms).toISOString().slice(0, 16).replace('T', ' ');
+  if (!(toMs > fromMs)) return { field: blame, message: `"to" (${iso(toMs)} UTC) must be after "from" (${iso(fromMs)} UTC).` };
+  const days = (toMs - fromMs) / 86_400_000;
+  if (days > MAX_SPAN_DAYS) {
+    const hint = !given.to ? ' Give a later "from", or a "to" as well.' : !given.from ? ' Give an earlier "to", or a "from" as well.' : '';
+    return { field: blame, message: `A span is at most ${MAX_SPAN_DAYS} days; ${iso(fromMs)} – ${iso(toMs)} UTC is ${days.toFixed(1)} days.${hint}` };
+  }
+  return null;
+}
 
 /** The Casefile page's query string: the evidence query plus the selected charts and raw window. */
 export const permalinkSchema = z.object({
@@ -111,6 +133,22 @@ export interface LimitLevels {
   warningLow: number | null;
 }
 
+/** Columns whose mean over the span's last windows the report and readings quote. */
+export const RECENT_KEYS = ['effectiveness', 'compensated_effectiveness', 'pressure_effectiveness', 'resistance_ohm'] as const;
+export type RecentKey = (typeof RECENT_KEYS)[number];
+/** Windows in the "recent" period: the last windows of the span, and the recent period of the scatter. */
+export const RECENT_WINDOWS = 10;
+
+/** The mean of one column over the last (up to RECENT_WINDOWS) windows of the span with a value. */
+export interface RecentMean {
+  mean: number | null;
+  /** How many windows the mean is over. */
+  windows: number;
+  /** First and last window start of those, Unix s. */
+  from: number | null;
+  to: number | null;
+}
+
 /** A scatter period: per-sample (current, fluid torque, magnet temperature) and the period's kT. */
 export interface ScatterPeriod {
   from: number;
@@ -161,8 +199,29 @@ export interface EvidenceResponse {
     sd: number | null;
     required: number;
   };
-  /** CUSUM decision interval of the drift detector, σ. */
-  cusumDecision_sigma: number;
+  /**
+   * The downward CUSUM against two kinds of level: the limit rule of the trip's limit set (which raises
+   * trips) and the onset detector's decision interval h (which only dates the onset). Times Unix s,
+   * from the full rows of the span.
+   */
+  cusum: {
+    /** The onset detector's decision interval h, σ. */
+    detectorH_sigma: number;
+    /** Caution and warning levels (≥) of the trip's limit set for drift_cusum_lo, σ; null where it has none. */
+    caution_sigma: number | null;
+    warning_sigma: number | null;
+    limitSetVersion: number;
+    peakLo: { value: number; t: number } | null;
+    peakHi: { value: number; t: number } | null;
+    /** First window of the span at or above each level (null: not reached in the span). */
+    firstAtDetector: number | null;
+    firstAtCaution: number | null;
+    firstAtWarning: number | null;
+  };
+  /** Means over the last RECENT windows of the span with a value, from the full rows (not the downsampled series). */
+  recent: Record<RecentKey, RecentMean>;
+  /** The momentum-ledger residual |τ_ext| over the span's windows (full rows), N·m. */
+  ledger: { windows: number; mean_nm: number | null; max_nm: number | null };
   limitSetVersion: number;
   limits: Record<string, LimitLevels>;
   series: Record<string, Series>;

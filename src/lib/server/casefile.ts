@@ -28,17 +28,23 @@ import {
   type EvidenceResponse,
   type LimitLevels,
   type RawWindowResponse,
+  RECENT_KEYS,
+  RECENT_WINDOWS,
+  type RecentMean,
   type ScatterPeriod,
   type Series,
+  type SpanProblem,
+  spanProblem,
 } from '../../features/casefile/casefile.schema';
 
 type Db = Kysely<Database> | Transaction<Database>;
 type Trip = Awaited<ReturnType<typeof findTrip>>;
 
-/** The drift detector's CUSUM decision interval, σ: the analysis job runs detectDrift with its default h = 7σ (k = 0.5σ). */
-export const CUSUM_DECISION_SIGMA = 7;
-/** Windows of the "recent" period of the torque-vs-current scatter. */
-export const RECENT_WINDOWS = 10;
+/**
+ * The onset detector's CUSUM decision interval, σ: detectDrift's default h = 7σ (k = 0.5σ), with which
+ * estimateOnset dates a drift. It raises no trip: trips come from the limit set's drift_cusum_lo rule.
+ */
+export const CUSUM_DETECTOR_H_SIGMA = 7;
 /** Default span around a trip: this long before its onset and after its last point, ms. */
 const BEFORE_MS = 45 * 60_000;
 const AFTER_MS = 15 * 60_000;
@@ -90,6 +96,37 @@ export function defaultSpan(trip: Pick<Trip, 'onset_at' | 'last_at' | 'cleared_a
   const onset = trip.onset_at.getTime();
   const end = Math.max(trip.cleared_at?.getTime() ?? 0, trip.last_at.getTime(), onset);
   return { fromMs: Math.floor((onset - BEFORE_MS) / 60_000) * 60_000, toMs: Math.ceil((end + AFTER_MS) / 60_000) * 60_000 };
+}
+
+function spanError(p: { field: SpanProblem['field'] | 'window'; message: string }): HttpError {
+  return new HttpError('BAD_REQUEST', p.message, { [p.field]: [p.message] });
+}
+
+/**
+ * The span an evidence request covers (evidence, CSV, report): the ends given, the other end from the
+ * default span around the trip. A missing end keeps the default end when that leaves the span running
+ * forward, else sits the default span's length from the given end. The span must run forward and
+ * cover at most MAX_SPAN_DAYS; otherwise a 400 naming `from` or `to`.
+ */
+export function resolveSpan(trip: Pick<Trip, 'onset_at' | 'last_at' | 'cleared_at'>, q: { from?: string; to?: string }): { fromMs: number; toMs: number } {
+  const def = defaultSpan(trip);
+  const length = def.toMs - def.fromMs;
+  const given = { from: q.from !== undefined, to: q.to !== undefined };
+  let fromMs = given.from ? Date.parse(q.from!) : def.fromMs;
+  let toMs = given.to ? Date.parse(q.to!) : def.toMs;
+  if (given.from && !given.to && Number.isFinite(fromMs) && !(def.toMs > fromMs)) toMs = fromMs + length;
+  if (given.to && !given.from && Number.isFinite(toMs) && !(def.fromMs < toMs)) fromMs = toMs - length;
+  const problem = spanProblem(fromMs, toMs, given);
+  if (problem) throw spanError(problem);
+  return { fromMs, toMs };
+}
+
+/** The span of a raw-samples request: the analysis window (WINDOW_S, aligned) holding an instant; 400 naming `window` when it is not a time. */
+export function rawWindowSpan(windowIso: string): { fromMs: number; toMs: number } {
+  const at = Date.parse(windowIso);
+  if (!Number.isFinite(at)) throw spanError({ field: 'window', message: 'window is not a time: give an ISO 8601 time with a zone.' });
+  const fromMs = Math.floor(at / 1000 / WINDOW_S) * WINDOW_S * 1000;
+  return { fromMs, toMs: fromMs + WINDOW_S * 1000 };
 }
 
 async function loopsOf(db: Db, trip: Trip): Promise<{ loops: SheetLoop[]; effectiveFrom: Date }> {
@@ -167,19 +204,29 @@ interface Baseline {
 }
 
 /**
- * The drift baseline as the analysis job forms it: the first BASELINE_WINDOWS windows with a
- * magnet-compensated effectiveness from the effective date of the sheet in force now. When those are not there yet,
- * the (up to BASELINE_WINDOWS) windows with an effectiveness before the trip's onset stand in.
+ * The drift baseline as the analysis job formed it for the trip: the first BASELINE_WINDOWS windows with
+ * a magnet-compensated effectiveness from the effective date of the sheet in force at the trip's onset
+ * (the sheet loopsOf reads), all before the onset and before any later sheet took over. When those are
+ * not there, the (up to BASELINE_WINDOWS) windows with one before the onset stand in. A sheet that
+ * came into force after the trip never moves its baseline past it.
  */
-async function findBaseline(db: Db, trip: Trip, loopId: number): Promise<Baseline> {
-  const current = await findSheetInForce(db, trip.spacecraft_id, new Date());
-  const since = current?.effectiveFrom ?? new Date(0);
+async function findBaseline(db: Db, trip: Trip, loopId: number, sheetFrom: Date): Promise<Baseline> {
+  const next = await db
+    .selectFrom('spacecraft_sheet')
+    .select('effective_from')
+    .where('spacecraft_id', '=', trip.spacecraft_id)
+    .where('effective_from', '>', sheetFrom)
+    .orderBy('effective_from')
+    .limit(1)
+    .executeTakeFirst();
+  const until = new Date(Math.min(trip.onset_at.getTime(), next?.effective_from.getTime() ?? Infinity));
   const first = await db
     .selectFrom('loop_window')
     .select(['window_start', 'compensated_effectiveness'])
     .where('spacecraft_id', '=', trip.spacecraft_id)
     .where('loop_id', '=', loopId)
-    .where('window_start', '>=', since)
+    .where('window_start', '>=', sheetFrom)
+    .where('window_start', '<', until)
     .where('compensated_effectiveness', 'is not', null)
     .orderBy('window_start')
     .limit(BASELINE_WINDOWS)
@@ -247,7 +294,7 @@ async function estimateOnset(db: Db, trip: Trip, loopId: number, base: Baseline)
     .execute();
   const t = rows.map((r) => r.window_start.getTime() / 1000);
   const v = rows.map((r) => r.compensated_effectiveness ?? Number.NaN);
-  const d = detectDrift(t, v, base.stats);
+  const d = detectDrift(t, v, base.stats, { cusumH_sigma: CUSUM_DETECTOR_H_SIGMA });
   if (!d.detected || d.signalTime_s === null || d.onsetTime_s === null) return fallback;
   const sums = d.direction === 'up' ? d.cusum.sHi : d.cusum.sLo;
   const signal = t.indexOf(d.signalTime_s);
@@ -498,14 +545,47 @@ function meanOf(values: readonly (number | null)[]): number | null {
   return f.length ? f.reduce((a, b) => a + b, 0) / f.length : null;
 }
 
+/** The mean of a column over the last RECENT_WINDOWS windows of the span that have a value (full rows, not downsampled). */
+export function recentMean<R extends { t: number }>(rows: readonly R[], value: (r: R) => number | null): RecentMean {
+  const last = rows.filter((r) => fin(value(r))).slice(-RECENT_WINDOWS);
+  return { mean: meanOf(last.map(value)), windows: last.length, from: last[0]?.t ?? null, to: last[last.length - 1]?.t ?? null };
+}
+
 /** Mean of a column over the baseline period and over the last RECENT_WINDOWS windows with a value in the span. */
 function beforeAfter(rows: LoopRow[], col: LoopColumn, base: Baseline, allBase: LoopRow[]): { before: number | null; after: number | null } {
   const inBase = base.from !== null && base.to !== null ? allBase.filter((r) => r.t >= base.from! && r.t < base.to!) : [];
-  const recent = rows.filter((r) => fin(r[col])).slice(-RECENT_WINDOWS);
-  return { before: meanOf(inBase.map((r) => r[col])), after: meanOf(recent.map((r) => r[col])) };
+  return { before: meanOf(inBase.map((r) => r[col])), after: recentMean(rows, (r) => r[col]).mean };
 }
 
-function readingsOf(ev: Omit<EvidenceResponse, 'readings'>, rows: LoopRow[], baseRows: LoopRow[], body: BodyRow[], base: Baseline): Record<EvidenceKey, string> {
+/** The ledger residual's mean and largest value over the span's windows. */
+function ledgerOf(body: readonly BodyRow[]): EvidenceResponse['ledger'] {
+  const v = body.map((b) => b.ledger_residual_nm).filter(fin);
+  return { windows: v.length, mean_nm: meanOf(v), max_nm: v.length ? Math.max(...v) : null };
+}
+
+/** The downward and upward CUSUM of the span against the limit set's levels and the onset detector's h. */
+export function cusumOf(rows: readonly { t: number; drift_cusum_lo: number | null; drift_cusum_hi: number | null }[], limits: LimitLevels | undefined, limitSetVersion: number): EvidenceResponse['cusum'] {
+  let peakLo: { value: number; t: number } | null = null, peakHi: { value: number; t: number } | null = null;
+  for (const r of rows) {
+    if (fin(r.drift_cusum_lo) && (!peakLo || r.drift_cusum_lo > peakLo.value)) peakLo = { value: r.drift_cusum_lo, t: r.t };
+    if (fin(r.drift_cusum_hi) && (!peakHi || r.drift_cusum_hi > peakHi.value)) peakHi = { value: r.drift_cusum_hi, t: r.t };
+  }
+  const caution = limits?.cautionHigh ?? null, warning = limits?.warningHigh ?? null;
+  const firstAt = (level: number | null) => (level === null ? null : (rows.find((r) => fin(r.drift_cusum_lo) && r.drift_cusum_lo >= level)?.t ?? null));
+  return {
+    detectorH_sigma: CUSUM_DETECTOR_H_SIGMA,
+    caution_sigma: caution,
+    warning_sigma: warning,
+    limitSetVersion,
+    peakLo,
+    peakHi,
+    firstAtDetector: firstAt(CUSUM_DETECTOR_H_SIGMA),
+    firstAtCaution: firstAt(caution),
+    firstAtWarning: firstAt(warning),
+  };
+}
+
+function readingsOf(ev: Omit<EvidenceResponse, 'readings'>, rows: LoopRow[], baseRows: LoopRow[], base: Baseline): Record<EvidenceKey, string> {
   const b = ev.baseline;
   const out = {} as Record<EvidenceKey, string>;
   const eff = beforeAfter(rows, 'effectiveness', base, baseRows);
@@ -525,17 +605,31 @@ function readingsOf(ev: Omit<EvidenceResponse, 'readings'>, rows: LoopRow[], bas
     const z = b.sd && b.sd > 0 ? (eff.after - b.mean) / b.sd : null;
     out.effectiveness = `Against ${baseText} the effectiveness was ${formatValue(b.mean, 3)} (σ ${formatValue(b.sd, 2)}); the last ${Math.min(RECENT_WINDOWS, rows.filter((r) => fin(r.effectiveness)).length)} windows of the span average ${formatValue(eff.after, 3)}, ${pct(rel)}${z !== null ? ` (${z >= 0 ? '+' : '−'}${Math.abs(z).toFixed(1)}σ)` : ''}. ${onsetText}.${Math.abs(rel) < 0.03 ? ' That is within a few per cent of the baseline: the pump is delivering its usual torque.' : rel < 0 ? ' The pump now delivers less torque per ampere than it did.' : ''}`;
   }
-  const lo = rows.filter((r) => fin(r.drift_cusum_lo));
-  if (!lo.length) {
+  const cu = ev.cusum;
+  if (!cu.peakLo) {
     out.drift = b.source === 'drift-baseline' ? 'No drift statistics are stored in this span.' : `Drift statistics start once the baseline of ${b.required} windows with a compensated effectiveness is formed (${b.n} so far before the onset).`;
   } else {
-    const peak = lo.reduce((m, r) => (r.drift_cusum_lo! > m.drift_cusum_lo! ? r : m));
-    const first = lo.find((r) => r.drift_cusum_lo! > ev.cusumDecision_sigma);
-    const hiPeak = Math.max(...rows.map((r) => r.drift_cusum_hi ?? 0));
+    const sig = (x: number) => `${formatValue(x, 3)}σ`;
+    const set = `limit set v${cu.limitSetVersion}`;
     const ewmaOut = rows.find((r) => fin(r.drift_ewma) && fin(r.drift_ewma_lcl) && (r.drift_ewma! < r.drift_ewma_lcl! || r.drift_ewma! > r.drift_ewma_ucl!));
-    out.drift = first
-      ? `The downward CUSUM crossed its decision level of ${ev.cusumDecision_sigma}σ at ${hhmm(first.t)} and reached ${peak.drift_cusum_lo!.toFixed(1)}σ at ${hhmm(peak.t)}${ewmaOut ? `; the EWMA left its control limits at ${hhmm(ewmaOut.t)}` : ''}. A sustained rise like this means the mean moved down, not a single bad window.`
-      : `The downward CUSUM stayed below its decision level of ${ev.cusumDecision_sigma}σ (largest ${peak.drift_cusum_lo!.toFixed(1)}σ at ${hhmm(peak.t)}; upward largest ${hiPeak.toFixed(1)}σ)${ewmaOut ? `, but the EWMA left its limits at ${hhmm(ewmaOut.t)}` : ' and the EWMA stayed inside its limits'}: no sustained shift in this span.`;
+    const peak = `${cu.peakLo.value.toFixed(1)}σ at ${hhmm(cu.peakLo.t)}`;
+    let limitText: string;
+    if (cu.caution_sigma === null && cu.warning_sigma === null) limitText = `The downward CUSUM reached ${peak}; ${set} has no limit on it, so it raised no trip here.`;
+    else if (cu.firstAtCaution !== null || cu.firstAtWarning !== null) {
+      const parts = [
+        cu.caution_sigma !== null ? (cu.firstAtCaution !== null ? `its caution limit of ${sig(cu.caution_sigma)} at ${hhmm(cu.firstAtCaution)}` : null) : null,
+        cu.warning_sigma !== null ? (cu.firstAtWarning !== null ? `its warning limit of ${sig(cu.warning_sigma)} at ${hhmm(cu.firstAtWarning)}` : null) : null,
+      ].filter((x): x is string => x !== null);
+      const below = cu.warning_sigma !== null && cu.firstAtWarning === null ? ` and stayed below the warning limit of ${sig(cu.warning_sigma)}` : '';
+      limitText = `The downward CUSUM crossed ${parts.join(' and ')} (${set}), reaching ${peak}${below}.`;
+    } else {
+      const levels = [cu.caution_sigma !== null ? `caution ${sig(cu.caution_sigma)}` : null, cu.warning_sigma !== null ? `warning ${sig(cu.warning_sigma)}` : null].filter(Boolean).join(', ');
+      limitText = `The downward CUSUM stayed below the limits of ${set} (${levels}); largest ${peak}, upward largest ${(cu.peakHi?.value ?? 0).toFixed(1)}σ.`;
+    }
+    const detector = cu.firstAtDetector !== null ? `The onset detector's own decision level, h = ${sig(cu.detectorH_sigma)}, was crossed at ${hhmm(cu.firstAtDetector)}; it dates the onset and raises no trip.` : `The onset detector's own decision level, h = ${sig(cu.detectorH_sigma)} (it dates the onset and raises no trip), was not crossed.`;
+    const ewma = ewmaOut ? ` The EWMA left its control limits at ${hhmm(ewmaOut.t)}.` : ' The EWMA stayed inside its control limits.';
+    const verdict = cu.firstAtDetector !== null ? ' A sustained rise like this means the mean moved down, not a single bad window.' : ewmaOut ? '' : ' No sustained shift in this span.';
+    out.drift = `${limitText} ${detector}${ewma}${verdict}`;
   }
   const comp = rows.filter((r) => fin(r.effectiveness) && fin(r.compensated_effectiveness));
   const mags = rows.map((r) => r.magnet_temp_mean_c).filter(fin);
@@ -566,10 +660,12 @@ function readingsOf(ev: Omit<EvidenceResponse, 'readings'>, rows: LoopRow[], bas
     out.heating = `Electrode-circuit resistance ${r.before !== null ? `${formatValue(r.before, 3)} → ` : ''}${formatValue(r.after, 3)} Ω${rRel !== null ? ` (${pct(rRel)})` : ''}; ${resText}. ${hot ? 'The electrodes are heating beyond what the fitted thermal model expects: look at contact resistance and wetting.' : 'No sign of electrode heating or contact degradation.'}`;
   }
   const sc = ev.scatter;
+  // in mN·m/A, as the chart's axis and legend
+  const mNm = (k: number | null) => `${formatValue(k === null ? null : k * 1e3, 3)} mN·m/A`;
   if (!sc.recent || sc.recent.kT === null) out.scatter = 'No window with a fitted kT in the recent period.';
   else {
     const bk = sc.baseline?.kT ?? null;
-    out.scatter = `Each dot is one 10 Hz sample: pump current against the fluid torque dh/dt + τ_loss. Recent kT ${formatValue(sc.recent.kT, 3)} N·m/A (${sc.recent.windows} windows)${bk !== null ? `, baseline ${formatValue(bk, 3)} N·m/A (${sc.baseline!.windows} windows): the slope changed ${pct(sc.recent.kT / bk - 1)}` : ''}; the ideal kT of the sheet is ${formatValue(sc.idealKt, 3)} N·m/A. Colour shows magnet temperature: if the colours separate along the slope, temperature explains the change.`;
+    out.scatter = `Each dot is one 10 Hz sample: pump current against the fluid torque dh/dt + τ_loss. Recent kT ${mNm(sc.recent.kT)} (${sc.recent.windows} windows)${bk !== null ? `, baseline ${mNm(bk)} (${sc.baseline!.windows} windows): the slope changed ${pct(sc.recent.kT / bk - 1)}` : ''}; the ideal kT of the sheet is ${mNm(sc.idealKt)}. The lines are τ = kT·I through the origin: only the slope of the windows' fits, which also carry loss-correction terms in v and v|v| that are not drawn, so dots may sit off a line where the loss model is off without kT having changed. Colour shows magnet temperature: if the colours separate along the slope, temperature explains the change.`;
   }
   const pu = ev.pulsation;
   if (!pu.latest) out.spectrum = 'No pressure burst was captured for this loop up to the end of the span.';
@@ -581,14 +677,13 @@ function readingsOf(ev: Omit<EvidenceResponse, 'readings'>, rows: LoopRow[], bas
   }
   const wf = pu.waterfall;
   out.waterfall = wf && wf.t.length ? `${wf.t.length} bursts in the span, ${hhmm(wf.t[0]!)}–${hhmm(wf.t[wf.t.length - 1]!)}; brighter is more power. A horizontal streak that appears or brightens is a line that came and stayed; a vertical one is a single noisy burst.` : 'No pressure bursts in this span.';
-  const led = body.filter((x) => fin(x.ledger_residual_nm));
-  if (!led.length) out.ledger = 'No momentum ledger in this span (it needs attitude and every loop in the same window).';
+  if (!ev.ledger.windows) out.ledger = 'No momentum ledger in this span (it needs attitude and every loop in the same window).';
   else {
-    const m = meanOf(led.map((x) => x.ledger_residual_nm));
+    const m = ev.ledger.mean_nm;
     const se = meanOf(ev.series.ledger_residual_nm?.e ?? []);
     const lim = ev.limits.ledger_residual_nm?.cautionHigh ?? null;
     const u = (x: number | null) => `${formatValue(x === null ? null : x * 1e6, 2)} µN·m`;
-    out.ledger = `The ledger residual |τ_ext| averages ${u(m)} (largest ${u(Math.max(...led.map((x) => x.ledger_residual_nm!)))}) with a typical standard error of ${u(se)}${lim !== null ? ` against a caution level of ${u(lim)}` : ''}. ${m !== null && se !== null && m > 3 * se ? 'The residual stands above its uncertainty: something outside the ledger is torquing the body, or a loop torque is misestimated.' : 'The residual is within its uncertainty: body and loop momentum balance.'}`;
+    out.ledger = `The ledger residual |τ_ext| averages ${u(m)} (largest ${u(ev.ledger.max_nm)}) with a typical standard error of ${u(se)}${lim !== null ? ` against a caution level of ${u(lim)}` : ''}. ${m !== null && se !== null && m > 3 * se ? 'The residual stands above its uncertainty: something outside the ledger is torquing the body, or a loop torque is misestimated.' : 'The residual is within its uncertainty: body and loop momentum balance.'}`;
   }
   return out;
 }
@@ -598,14 +693,12 @@ function readingsOf(ev: Omit<EvidenceResponse, 'readings'>, rows: LoopRow[], bas
 /** The Casefile's evidence of a trip over a span: stored derived series (LTTB-downsampled), baseline, onset, scatter, pulsation and readings. */
 export async function loadEvidence(db: Db, tripId: number, q: EvidenceQuery): Promise<EvidenceResponse> {
   const trip = await findTrip(db, tripId);
-  const { loops } = await loopsOf(db, trip);
+  const { loops, effectiveFrom } = await loopsOf(db, trip);
   const loop = pickLoop(trip, loops, q.loop);
   const def = defaultSpan(trip);
-  const fromMs = q.from ? Date.parse(q.from) : def.fromMs;
-  const toMs = q.to ? Date.parse(q.to) : Math.max(def.toMs, fromMs + 60_000);
-  if (!(toMs > fromMs)) throw new HttpError('BAD_REQUEST', '"to" must be after "from".', { to: ['after from'] });
+  const { fromMs, toMs } = resolveSpan(trip, q);
   const points = q.points ?? DEFAULT_POINTS;
-  const base = await findBaseline(db, trip, loop.id);
+  const base = await findBaseline(db, trip, loop.id, effectiveFrom);
   const [rows, body, onset, limits, scatter, pulsation] = await Promise.all([
     loopRows(db, trip.spacecraft_id, loop.id, fromMs, toMs),
     bodyRows(db, trip.spacecraft_id, fromMs, toMs),
@@ -636,7 +729,9 @@ export async function loadEvidence(db: Db, tripId: number, q: EvidenceQuery): Pr
     span: { from: new Date(fromMs).toISOString(), to: new Date(toMs).toISOString(), defaultFrom: new Date(def.fromMs).toISOString(), defaultTo: new Date(def.toMs).toISOString() },
     onset,
     baseline: { source: base.source, from: base.from, to: base.to, n: base.stats?.n ?? 0, mean: base.stats && fin(base.stats.mean) ? base.stats.mean : null, sd: base.stats && fin(base.stats.sd) ? base.stats.sd : null, required: BASELINE_WINDOWS },
-    cusumDecision_sigma: CUSUM_DECISION_SIGMA,
+    cusum: cusumOf(rows, limits.drift_cusum_lo, trip.limit_set_version),
+    recent: Object.fromEntries(RECENT_KEYS.map((k) => [k, recentMean(rows, (r) => r[k])])) as Record<(typeof RECENT_KEYS)[number], RecentMean>,
+    ledger: ledgerOf(body),
     limitSetVersion: trip.limit_set_version,
     limits,
     series,
@@ -644,7 +739,7 @@ export async function loadEvidence(db: Db, tripId: number, q: EvidenceQuery): Pr
     pulsation,
     windows: rows.length,
   };
-  return { ...partial, readings: readingsOf(partial, rows, baseRows, body, base) };
+  return { ...partial, readings: readingsOf(partial, rows, baseRows, base) };
 }
 
 /** CSV of the evidence series at full resolution (one row per 60 s window) over a span. */
@@ -652,9 +747,7 @@ export async function evidenceCsv(db: Db, tripId: number, q: EvidenceQuery): Pro
   const trip = await findTrip(db, tripId);
   const { loops } = await loopsOf(db, trip);
   const loop = pickLoop(trip, loops, q.loop);
-  const def = defaultSpan(trip);
-  const fromMs = q.from ? Date.parse(q.from) : def.fromMs;
-  const toMs = q.to ? Date.parse(q.to) : def.toMs;
+  const { fromMs, toMs } = resolveSpan(trip, q);
   const [rows, body] = await Promise.all([loopRows(db, trip.spacecraft_id, loop.id, fromMs, toMs), bodyRows(db, trip.spacecraft_id, fromMs, toMs)]);
   const byT = new Map(body.map((b) => [b.t, b]));
   const times = [...new Set([...rows.map((r) => r.t), ...body.map((b) => b.t)])].sort((a, b) => a - b);
@@ -675,7 +768,8 @@ export async function findRawWindow(db: Db, tripId: number, windowIso: string, l
   const trip = await findTrip(db, tripId);
   const { loops } = await loopsOf(db, trip);
   const loop = pickLoop(trip, loops, loopParam);
-  const startS = Math.floor(Date.parse(windowIso) / 1000 / WINDOW_S) * WINDOW_S;
+  const span = rawWindowSpan(windowIso);
+  const startS = span.fromMs / 1000;
   const r = await db
     .selectFrom('loop_sample')
     .select(['t', 'time_tag', 'seq', 'status', 'commanded_current_a', 'measured_current_a', 'electrode_voltage_v', 'flow_velocity_m_s', 'pressure_rise_pa', 'fluid_temp_c', 'electrode_temp_c', 'magnet_temp_c'])
