@@ -11,6 +11,9 @@ import { pool } from '../../src/lib/server/db';
 import { pruneJobRuns, runAllDueWork, JOB_RUN_RETENTION_DAYS } from '../../src/lib/server/job-log';
 import { DEFAULT_RULES } from '../../src/lib/limits/defaults';
 import { fly } from './flight';
+import { QUANTITIES } from '../../src/lib/limits/quantities';
+import { BODY, loadQuantitySeries } from '../../src/lib/server/trip-engine';
+import { runAnalysisJob } from '../../src/lib/server/analysis-job';
 
 /** The quiet defaults: nothing in a healthy flight trips them. */
 const RULES = DEFAULT_RULES.filter((r) => r.quantity !== 'data_age_s');
@@ -135,5 +138,42 @@ describe('job log retention', () => {
     expect(left.map((r) => r.id)).toEqual([ids[2]!.id]);
     await expect(pruneJobRuns(db, now, 0)).rejects.toThrow(/days must be a positive number/);
     await db.deleteFrom('job_run').where('job', '=', 'test-prune').execute();
+  });
+});
+
+describe('limit quantities through the trip engine', () => {
+  it('every quantity read from a table loads its series from a flown spacecraft, the new ones with values', async () => {
+    const { sc, startMs, endMs } = await fly('MR-1', 'healthy', 5, { rules: RULES, prefix: 'Q' });
+    expect((await runAnalysisJob(db, pool, sc, { nowMs: endMs + 5_000 })).status).toBe('done');
+    const counts: Record<string, { points: number; values: number }> = {};
+    for (const q of QUANTITIES.filter((x) => x.source !== 'link')) {
+      const pts = await loadQuantitySeries(db, sc.id, q, q.scope === 'body' ? BODY : 0, startMs - 60_000, endMs + 60_000);
+      counts[q.key] = { points: pts.length, values: pts.filter((p) => p.value !== null && Number.isFinite(p.value)).length };
+    }
+    // raw channels: one point per 10 Hz sample
+    for (const k of ['commanded_current_a', 'mag_x_nt', 'mag_y_nt', 'mag_z_nt']) expect(counts[k]!.values, k).toBeGreaterThan(5 * 60 * 5);
+    // per-window figures: every window of the flight
+    for (const k of ['kt_nm_per_a', 'kt_stderr_nm_per_a', 'effectiveness_stderr', 'pressure_constant_stderr_pa_per_a', 'loop_momentum_mean_nms', 'loop_momentum_max_abs_nms', 'ledger_stderr_x_nm', 'ledger_stderr_y_nm', 'ledger_stderr_z_nm']) {
+      expect(counts[k]!.values, k).toBeGreaterThanOrEqual(3);
+    }
+    // the drift statistics wait for an hour's baseline: windows are there, values not yet
+    for (const k of ['drift_ewma', 'drift_cusum_hi']) expect(counts[k]!.points, k).toBeGreaterThanOrEqual(3);
+  }, 60_000);
+});
+
+describe('seeded demo limits', () => {
+  it('each demo spacecraft’s active set has measured-current limits at its sheet’s rated current', async () => {
+    for (const [key, rated] of [['MR-1', 25], ['MR-2', 30], ['MR-3', 22]] as const) {
+      const rules = await db
+        .selectFrom('limit_rule as r')
+        .innerJoin('limit_set as s', 's.id', 'r.limit_set_id')
+        .innerJoin('spacecraft as c', 'c.id', 's.spacecraft_id')
+        .select(['r.loop_id', 'r.caution_high', 'r.warning_high', 'r.caution_low', 'r.warning_low', 'r.clear_high'])
+        .where('c.key', '=', key)
+        .where('s.status', '=', 'active')
+        .where('r.quantity', '=', 'measured_current_a')
+        .execute();
+      expect(rules, key).toEqual([{ loop_id: null, caution_high: rated, warning_high: Math.round(rated * 1.15 * 1000) / 1000, caution_low: -rated, warning_low: -Math.round(rated * 1.15 * 1000) / 1000, clear_high: rated * 0.95 }]);
+    }
   });
 });
