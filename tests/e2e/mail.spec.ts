@@ -19,14 +19,21 @@ function signedInAs(role: DemoRole) {
     expect(res.ok()).toBe(true);
   });
 }
-const TRIP_ID = 987001;
+/** A trip row of MR-2 made for this spec (mail rows reference their trip). */
+let TRIP_ID: number;
 
 test.beforeAll(async () => {
   const c = config();
   relay = await startRelay({ port: c.SMTP_PORT, dir: c.MAILBOX_DIR });
   const sc = (await findSpacecraftByKey(db, 'MR-2'))!;
   const now = new Date();
-  await db.deleteFrom('outbox').where('trip_id', '=', TRIP_ID).execute();
+  TRIP_ID = (
+    await db
+      .insertInto('trip')
+      .values({ spacecraft_id: sc.id, loop_id: 1, kind: 'channel-limit', quantity: 'electrode_temp_c', level: 'warning', side: 'high', limit_set_version: 2, onset_at: now, raised_at: now, value: 212.4, peak_value: 212.4, limit_value: 200, last_value: 212.4, last_at: now, cleared_at: now, state: 'resolved', resolved_at: now, resolution: 'Mail spec fixture.', evidence: '{}' })
+      .returning('id')
+      .executeTakeFirstOrThrow()
+  ).id;
   await db.transaction().execute((trx) =>
     enqueueTripMail(
       trx,
@@ -56,6 +63,7 @@ test.beforeAll(async () => {
 
 test.afterAll(async () => {
   await relay?.close();
+  if (TRIP_ID) await db.deleteFrom('trip').where('id', '=', TRIP_ID).execute();
 });
 
 test.describe('as the admin', () => {

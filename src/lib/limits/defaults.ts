@@ -1,4 +1,5 @@
 import type { LimitRuleInput } from './limit-set.schema';
+import type { SpacecraftSheet } from '../spacecraft-sheet.schema';
 
 /**
  * The demo fleet's default limits, each with where it comes from. They are starting points for
@@ -35,7 +36,7 @@ export const DEFAULT_RULES: LimitRuleInput[] = [
   },
   {
     quantity: 'measured_current_a', loopId: null, cautionHigh: 28, warningHigh: 32, cautionLow: -28, warningLow: -32, clearHigh: 26, clearLow: -26, persistence: 5,
-    rationale: 'Physics of the demo sheets: rated currents are 22–30 A; a sustained current beyond that is outside the pump’s rating.',
+    rationale: 'Fallback when no sheet is at hand (the demo ratings are 22–30 A). A spacecraft with a sheet gets its limits from each loop’s rated current instead (currentRulesFor).',
   },
   {
     quantity: 'data_age_s', loopId: null, cautionHigh: 30, warningHigh: 120, cautionLow: null, warningLow: null, clearHigh: 10, clearLow: null, persistence: 1,
@@ -46,3 +47,56 @@ export const DEFAULT_RULES: LimitRuleInput[] = [
     rationale: 'Invented for the demo: a few dropped packets a minute are tolerable; hundreds mean a bad link or a dump problem.',
   },
 ];
+
+/**
+ * Measured-current levels as multiples of a loop's rated current (the sheet's `ratedCurrent_A`).
+ * Invented for the demo: caution at the rating itself (a pump should never be driven past it for
+ * long), warning 15 % beyond it, and the trip clears once the current is back 5 % inside the rating.
+ * Both signs: the current's sign is the pumping direction.
+ */
+export const CURRENT_LIMIT_FACTORS = { caution: 1, warning: 1.15, clear: 0.95 } as const;
+
+/** Persistence of the current limits, in samples (half a second of 10 Hz housekeeping). */
+const CURRENT_PERSISTENCE = 5;
+
+const amps = (x: number) => Math.round(x * 1000) / 1000;
+
+/** The measured-current limit of one rated current, for one loop or (null) every loop. */
+export function currentRule(ratedCurrent_A: number, loopId: number | null): LimitRuleInput {
+  if (!(Number.isFinite(ratedCurrent_A) && ratedCurrent_A > 0)) throw new Error(`currentRule: ratedCurrent_A must be a positive number (got ${ratedCurrent_A})`);
+  const f = CURRENT_LIMIT_FACTORS;
+  const caution = amps(ratedCurrent_A * f.caution);
+  const warning = amps(ratedCurrent_A * f.warning);
+  const clear = amps(ratedCurrent_A * f.clear);
+  return {
+    quantity: 'measured_current_a',
+    loopId,
+    cautionHigh: caution,
+    warningHigh: warning,
+    cautionLow: -caution,
+    warningLow: -warning,
+    clearHigh: clear,
+    clearLow: -clear,
+    persistence: CURRENT_PERSISTENCE,
+    rationale: `From the sheet's rated current of ${ratedCurrent_A} A${loopId === null ? '' : ` (loop ${loopId})`}: caution at the rating, warning at ${f.warning}× it, clear at ${f.clear}× it (factors invented for the demo). Either sign: the sign is the pumping direction.`,
+  };
+}
+
+/**
+ * The measured-current limits of a sheet's loops: one rule for every loop when they share a
+ * rating, else one rule per loop.
+ */
+export function currentRulesFor(loops: readonly Pick<SpacecraftSheet['loops'][number], 'id' | 'ratedCurrent_A'>[]): LimitRuleInput[] {
+  if (!loops.length) throw new Error('currentRulesFor: the sheet has no loops');
+  const ratings = new Set(loops.map((l) => l.ratedCurrent_A));
+  if (ratings.size === 1) return [currentRule(loops[0]!.ratedCurrent_A, null)];
+  return [...loops].sort((a, b) => a.id - b.id).map((l) => currentRule(l.ratedCurrent_A, l.id));
+}
+
+/**
+ * The default limits of one spacecraft: DEFAULT_RULES in their order, with the all-loops
+ * measured-current rule replaced (in place) by the limits its loops' ratings give.
+ */
+export function defaultRulesFor(sheet: { loops: readonly Pick<SpacecraftSheet['loops'][number], 'id' | 'ratedCurrent_A'>[] }): LimitRuleInput[] {
+  return DEFAULT_RULES.flatMap((r) => (r.quantity === 'measured_current_a' && r.loopId === null ? currentRulesFor(sheet.loops) : [{ ...r }]));
+}

@@ -6,7 +6,7 @@ import { spacecraftSheetSchema } from '../spacecraft-sheet.schema';
 import { findSpacecraftByKey, insertSheet, insertSpacecraftWithSheet } from './spacecraft';
 import { findUserByEmail, insertUser } from './users';
 import { insertLimitSet } from './limit-sets';
-import { DEFAULT_RULES } from '../limits/defaults';
+import { defaultRulesFor } from '../limits/defaults';
 
 /** Invented demo people: one account per role, plus a second engineer for reviews. */
 export const DEMO_USERS: { email: string; name: string; roles: Role[] }[] = [
@@ -85,10 +85,15 @@ export async function seedDemo(db: Kysely<Database>, password: string): Promise<
         .executeTakeFirst();
       if (!has) await insertSheet(trx, existing.id, sheet, null);
     }
-    // Each demo spacecraft starts with the default limits active (see src/lib/limits/defaults.ts).
-    for (const sc of await trx.selectFrom('spacecraft').select('id').execute()) {
+    // Each demo spacecraft starts with the default limits active (see src/lib/limits/defaults.ts),
+    // its current limits taken from the rated currents of its newest sheet.
+    for (const sc of await trx.selectFrom('spacecraft').select(['id', 'key']).execute()) {
       const any = await trx.selectFrom('limit_set').select('id').where('spacecraft_id', '=', sc.id).executeTakeFirst();
-      if (!any) await insertLimitSet(trx, sc.id, { name: 'Default limits', notes: 'Seeded defaults; each limit says where it comes from.', rules: DEFAULT_RULES }, null, 'active');
+      if (any) continue;
+      const newest = await trx.selectFrom('spacecraft_sheet').select('sheet').where('spacecraft_id', '=', sc.id).orderBy('effective_from', 'desc').limit(1).executeTakeFirst();
+      if (!newest) throw new Error(`seed: spacecraft ${sc.key} has no sheet, so its default limits cannot be derived`);
+      const sheet = spacecraftSheetSchema.parse(newest.sheet);
+      await insertLimitSet(trx, sc.id, { name: 'Default limits', notes: 'Seeded defaults; each limit says where it comes from.', rules: defaultRulesFor(sheet) }, null, 'active');
     }
   });
   return { users, spacecraft, stations };

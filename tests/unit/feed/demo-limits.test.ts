@@ -2,12 +2,12 @@
  * The demo's scenarios against the demo's default limits, through the ground's own decoder and
  * analysis: MR-1 on demo.json must trip its effectiveness and pulsation limits within the first ten
  * minutes; the healthy scenario (MR-2 and MR-3 in the demo) must stay inside every caution level for
- * hours. Limit levels and persistences are those of the demo's default limit set.
+ * hours, the current inside each spacecraft's own rating-derived caution. Limit levels and persistences are those of the demo's default limit set.
  */
 
 import { describe, expect, it } from 'vitest';
 import { analyseSpan, baselineStats, detectDrift } from '../../../src/lib/physics/analysis';
-import { DEFAULT_RULES } from '../../../src/lib/limits/defaults';
+import { DEFAULT_RULES, defaultRulesFor } from '../../../src/lib/limits/defaults';
 import { BASELINE_WINDOWS } from '../../../src/lib/server/analysis-job';
 import type { SpanAnalysis } from '../../../src/lib/physics/analysis';
 import { DEFAULT_EFFECTIVENESS } from '../../../ingest/sim/spacecraft-sim';
@@ -21,8 +21,14 @@ const LIMITS = {
   rateOfRise_k_s: 0.02,
   marginInUse_pct: 80,
   pulsationPeak_pa: { caution: 40, persistence: 2 },
-  measuredCurrent_a: 28,
 };
+
+/** The measured-current caution a loop's seeded default set gives it (from the sheet's rated current). */
+function currentCaution(sheet: ReturnType<typeof loadSheet>, loopId: number): number {
+  const rules = defaultRulesFor(sheet).filter((r) => r.quantity === 'measured_current_a');
+  const r = rules.find((x) => x.loopId === loopId) ?? rules.find((x) => x.loopId === null)!;
+  return r.cautionHigh!;
+}
 
 /** End time (s from the start) of the first run of `persistence` consecutive values below `level`, or null. */
 function tripTime(points: readonly { t_s: number; value: number | null }[], level: number, persistence: number): number | null {
@@ -79,7 +85,8 @@ describe('demo scenario, MR-1: the faults trip their limits within the first ten
 });
 
 describe('healthy scenario: three simulated hours inside every caution level of the demo limits', () => {
-  const check = (key: 'MR-1' | 'MR-3', d: DecodedSpan, a: SpanAnalysis) => {
+  const check = (key: 'MR-1' | 'MR-2' | 'MR-3', d: DecodedSpan, a: SpanAnalysis) => {
+    const sheet = loadSheet(key);
     const hours = 3;
     for (const l of a.loops) {
       const ws = l.windows.filter((w) => w.start_s >= T0_S && w.end_s <= T0_S + hours * 3600);
@@ -99,7 +106,8 @@ describe('healthy scenario: three simulated hours inside every caution level of 
         maxI = Math.max(maxI, Math.abs(raw.current_a[i]!));
         maxTe = Math.max(maxTe, raw.electrodeTemp_c[i]!);
       }
-      expect(maxI, key).toBeLessThan(LIMITS.measuredCurrent_a);
+      expect(maxI, key).toBeLessThan(currentCaution(sheet, l.loopId));
+      expect(currentCaution(sheet, l.loopId), key).toBe(sheet.loops.find((x) => x.id === l.loopId)!.ratedCurrent_A);
       expect(maxTe, key).toBeLessThan(LIMITS.electrodeTemp_c);
       // the downward drift CUSUM, formed as the analysis job forms it (on the magnet-compensated series), stays below the default caution
       const v = Float64Array.from(l.windows, (w) => w.compensatedEffectiveness ?? Number.NaN);
@@ -110,7 +118,7 @@ describe('healthy scenario: three simulated hours inside every caution level of 
     }
   };
 
-  for (const key of ['MR-3', 'MR-1'] as const) {
+  for (const key of ['MR-3', 'MR-1', 'MR-2'] as const) {
     it(`${key}`, () => {
       const sheet = loadSheet(key);
       const d = generateSpan(sheet, loadScenario('healthy'), 3 * 3600);

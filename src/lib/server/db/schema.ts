@@ -400,7 +400,8 @@ export interface OnCallShiftTable {
 export interface MailDigestItemTable {
   id: Generated<number>;
   spacecraft_id: number;
-  trip_id: number;
+  /** Null once the trip is deleted (ON DELETE SET NULL). */
+  trip_id: number | null;
   period_start: Timestamp;
   to_addresses: string[];
   /** The trip's mail facts as JSON (times as ISO strings). */

@@ -8,7 +8,7 @@ export { recipientsFor, listOnCallShifts, listOnCallCandidates, listOnCallNow, a
 export type { OnCallShift, OnCallCandidate, RosterView } from './roster';
 export { listMailbox, readMailboxMessage, mailboxDir } from './mailbox';
 export type { MailboxEntry, MailboxMessage } from './mailbox';
-export { enqueueTripMail, flushDigests, tripMessageKey, tripMailFactsSchema } from './trip-mail';
+export { enqueueTripMail, flushDigests, mailTripsClosedAtHandover, tripMessageKey, tripMailFactsSchema } from './trip-mail';
 export type { TripMailRoute } from './trip-mail';
 export { renderTripMail, renderDigest, CAUTION_LINE, LEVEL_STYLE } from './templates';
 export type { TripMailFacts, DigestEntry, RenderedMail } from './templates';

@@ -17,6 +17,11 @@ export interface TripMailFacts {
   limitSide: 'high' | 'low';
   at: Date;
   limitSetVersion: number;
+  /**
+   * Set on a 'cleared' event when the trip was closed by a limit-set handover rather than by its
+   * value returning within the limit (the trip's stored cleared_note); `value` is then its last value.
+   */
+  closedNote?: string | null;
 }
 
 /** A caution trip as a digest lists it. */
@@ -101,6 +106,7 @@ function headline(f: TripMailFacts): string {
   const where = `${f.spacecraftKey}, ${loopText(f.loopId)}`;
   if (f.event === 'opened') return `${word} trip opened on ${where}`;
   if (f.event === 'escalated') return `Trip escalated to ${word} on ${where}`;
+  if (f.closedNote) return `${word} trip closed at a limit-set handover on ${where}`;
   return `${word} trip cleared on ${where}`;
 }
 
@@ -108,18 +114,20 @@ function headline(f: TripMailFacts): string {
 export function renderTripMail(f: TripMailFacts, publicUrl: string): RenderedMail {
   const url = tripUrl(publicUrl, f.tripId);
   const loop = f.loopId === null ? '' : ` L${f.loopId}`;
-  const tag = f.event === 'opened' ? f.level.toUpperCase() : f.event === 'escalated' ? `Escalated to ${f.level.toUpperCase()}` : 'Cleared';
-  const relation = f.event === 'cleared' ? 'back to' : '';
+  const handover = f.event === 'cleared' && !!f.closedNote;
+  const tag = f.event === 'opened' ? f.level.toUpperCase() : f.event === 'escalated' ? `Escalated to ${f.level.toUpperCase()}` : handover ? 'Closed at limit handover' : 'Cleared';
+  const relation = f.event === 'cleared' && !handover ? 'back to' : handover ? 'last' : '';
   const subject = `[Millrace] ${tag} · ${f.spacecraftKey}${loop} ${f.quantityLabel.toLowerCase()} ${relation ? `${relation} ` : ''}${formatQuantity(f.value, f.unit)} (${f.limitSide} limit ${formatQuantity(f.limit, f.unit)})`;
-  const levelLine = f.event === 'cleared' ? `${f.level.toUpperCase()} (now cleared)` : f.level.toUpperCase();
+  const levelLine = handover ? `${f.level.toUpperCase()} (closed at handover)` : f.event === 'cleared' ? `${f.level.toUpperCase()} (now cleared)` : f.level.toUpperCase();
   const rows: [string, string][] = [
     ['Spacecraft', f.spacecraftKey],
     ['Loop', f.loopId === null ? '— (spacecraft body)' : `L${f.loopId}`],
     ['Quantity', `${f.quantityLabel} (${f.quantity})`],
-    ['Value', `${formatQuantity(f.value, f.unit)}, ${marginText(f)}`],
+    [handover ? 'Last value' : 'Value', `${formatQuantity(f.value, f.unit)}, ${marginText(f)}`],
     ['Limit', `${formatQuantity(f.limit, f.unit)} (${f.limitSide}), limit set version ${f.limitSetVersion}`],
     ['Level', levelLine],
     ['Time', formatUtc(f.at)],
+    ...(handover ? ([['Note', f.closedNote!]] as [string, string][]) : []),
     ['Trip', url],
   ];
   const width = Math.max(...rows.map(([k]) => k.length)) + 2;
@@ -128,14 +136,19 @@ export function renderTripMail(f: TripMailFacts, publicUrl: string): RenderedMai
     '',
     ...rows.map(([k, v]) => `${`${k}:`.padEnd(width)}${v}`),
     '',
-    f.event === 'cleared' ? 'The value is back within its limit. Review the trip and resolve it in its Casefile.' : 'Open the trip to acknowledge it and see the evidence.',
+    handover
+      ? 'The limit set that raised this trip was retired, so the trip can no longer clear on its own and was closed; the value was last outside its limit. The new limit set raises its own trip if the condition persists. Review the trip and resolve it in its Casefile.'
+      : f.event === 'cleared'
+        ? 'The value is back within its limit. Review the trip and resolve it in its Casefile.'
+        : 'Open the trip to acknowledge it and see the evidence.',
     '',
     '--',
     CAUTION_LINE,
     '',
   ].join('\n');
 
-  const style = f.event === 'cleared' ? LEVEL_STYLE.nominal : LEVEL_STYLE[f.level];
+  // A handover closes a trip whose condition may still be live: it keeps its level's colour.
+  const style = f.event === 'cleared' && !handover ? LEVEL_STYLE.nominal : LEVEL_STYLE[f.level];
   const levelHtml = `<strong style="color:${style.colour}">${style.icon} ${escapeHtml(levelLine)}</strong>`;
   const htmlRows = rows
     .map(([k, v]) => {
@@ -160,6 +173,7 @@ function headlineHtml(f: TripMailFacts): string {
   const where = escapeHtml(`${f.spacecraftKey}, ${loopText(f.loopId)}`);
   if (f.event === 'opened') return `${word} trip opened on ${where}`;
   if (f.event === 'escalated') return `Trip escalated to ${word} on ${where}`;
+  if (f.closedNote) return `${word} trip closed at a limit-set handover on ${where}`;
   return `${word} trip cleared on ${where}`;
 }
 
@@ -188,7 +202,7 @@ export function renderDigest(input: { spacecraftKey: string; periodStart: Date; 
   const span = `${formatUtc(input.periodStart).slice(0, 16)}–${formatUtc(input.periodEnd).slice(11, 16)} UTC`;
   const subject = `[Millrace] CAUTION digest · ${input.spacecraftKey} · ${n} trip${n === 1 ? '' : 's'} ${span}`;
   const lines = entries.map((e) => {
-    const state = e.clearedAt ? `cleared ${formatUtc(e.clearedAt).slice(11)}` : 'open';
+    const state = e.clearedAt ? `${e.closedNote ? 'closed at limit handover' : 'cleared'} ${formatUtc(e.clearedAt).slice(11)}` : 'open';
     return [
       `- ${formatUtc(e.at)}  ${e.loopId === null ? 'body' : `L${e.loopId}`}  ${e.quantityLabel}: ${formatQuantity(e.value, e.unit)} (${e.limitSide} limit ${formatQuantity(e.limit, e.unit)}, limit set v${e.limitSetVersion})  CAUTION, ${state}`,
       `  ${tripUrl(publicUrl, e.tripId)}`,
@@ -213,7 +227,7 @@ export function renderDigest(input: { spacecraftKey: string; periodStart: Date; 
   const rows = entries
     .map((e) => {
       const url = tripUrl(publicUrl, e.tripId);
-      const state = e.clearedAt ? `cleared ${escapeHtml(formatUtc(e.clearedAt).slice(11))}` : 'open';
+      const state = e.clearedAt ? `${e.closedNote ? 'closed at limit handover' : 'cleared'} ${escapeHtml(formatUtc(e.clearedAt).slice(11))}` : 'open';
       return `<tr>${td(escapeHtml(formatUtc(e.at)))}${td(e.loopId === null ? 'body' : `L${e.loopId}`)}${td(escapeHtml(e.quantityLabel), false, true)}${td(escapeHtml(formatQuantity(e.value, e.unit)), true)}${td(escapeHtml(`${formatQuantity(e.limit, e.unit)} ${e.limitSide}`), true)}${td(`<span style="color:${c.colour};font-weight:600">${c.icon} CAUTION</span> ${state}`)}${td(`<a href="${escapeHtml(url)}" style="color:${GALLIUM}">Trip ${e.tripId}</a>`)}</tr>`;
     })
     .join('\n');

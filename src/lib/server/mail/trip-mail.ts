@@ -1,7 +1,8 @@
 import { z } from 'zod';
-import type { Kysely, Transaction } from 'kysely';
+import { sql, type Kysely, type Transaction } from 'kysely';
 import type { Database } from '../db/schema';
 import { config } from '../config';
+import { quantityInfo } from '../../limits/quantities';
 import { enqueueMail } from './outbox';
 import { recipientsFor } from './roster';
 import { periodStartOf, renderDigest, renderTripMail, type DigestEntry, type TripMailFacts } from './templates';
@@ -27,6 +28,7 @@ export const tripMailFactsSchema = z.object({
   limitSide: z.enum(['high', 'low']),
   at: z.coerce.date(),
   limitSetVersion: z.number().int(),
+  closedNote: z.string().nullish(),
 });
 
 /** Where a trip event's mail went. */
@@ -42,14 +44,16 @@ export function tripMessageKey(f: Pick<TripMailFacts, 'tripId' | 'event' | 'leve
 
 /**
  * Mail a trip event, in the caller's transaction. Warnings (opened or escalated) and clears are
- * queued as one message each at once, to whoever is on call at the trip's time. A caution
+ * queued as one message each at once, to whoever is on call when the message is queued (`now`):
+ * for playback of an old excursion, the people on shift now, not those on shift when the data was
+ * taken (they may long have gone off duty). A caution
  * opening waits for its spacecraft's digest (the period holding `now`). A caution that clears
  * while its opening still waits for the digest is marked cleared in the digest instead of being
  * mailed on its own, so nobody hears of a clear before the trip itself.
  */
 export async function enqueueTripMail(trx: Db, facts: TripMailFacts, now: Date, digestMinutes = config().DIGEST_MINUTES): Promise<TripMailRoute> {
   if (facts.event === 'opened' && facts.level === 'caution') {
-    const to = await recipientsFor(trx, facts.spacecraftId, facts.at);
+    const to = await recipientsFor(trx, facts.spacecraftId, now);
     const row = await trx
       .insertInto('mail_digest_item')
       .values({
@@ -67,14 +71,17 @@ export async function enqueueTripMail(trx: Db, facts: TripMailFacts, now: Date, 
   if (facts.event === 'cleared' && facts.level === 'caution') {
     const folded = await trx
       .updateTable('mail_digest_item')
-      .set({ cleared_at: facts.at })
+      .set(facts.closedNote ? { cleared_at: facts.at, facts: sql<string>`jsonb_set(facts, '{closedNote}', to_jsonb(${facts.closedNote}::text))` } : { cleared_at: facts.at })
       .where('trip_id', '=', facts.tripId)
       .where('digested_at', 'is', null)
       .returning('id')
       .executeTakeFirst();
     if (folded) return { route: 'digest-cleared', itemId: folded.id };
+    // Already folded into a digest that went out (a repeated clear): that digest told it.
+    const told = await trx.selectFrom('mail_digest_item').select('id').where('trip_id', '=', facts.tripId).where('cleared_at', 'is not', null).executeTakeFirst();
+    if (told) return { route: 'digest-cleared', itemId: told.id };
   }
-  const to = await recipientsFor(trx, facts.spacecraftId, facts.at);
+  const to = await recipientsFor(trx, facts.spacecraftId, now);
   const body = renderTripMail(facts, config().PUBLIC_URL);
   const id = await enqueueMail(trx, {
     messageKey: tripMessageKey(facts),
@@ -139,4 +146,53 @@ export async function flushDigests(db: Kysely<Database>, now: Date, digestMinute
     }
     return queued;
   });
+}
+
+/**
+ * Mail the trips a limit-set handover closed (their rule is no longer evaluated, so they cannot
+ * clear on their own), in the approval's transaction: one "closed at the handover" message per
+ * trip, or, for a caution still waiting for its digest, the digest line marked so. Call it with the
+ * ids handOverLimits returns in `closed`; trips without a cleared_note (not closed by a handover)
+ * are left alone. Returns where each trip's mail went.
+ */
+export async function mailTripsClosedAtHandover(trx: Db, tripIds: readonly number[], now: Date): Promise<TripMailRoute[]> {
+  if (!tripIds.length) return [];
+  const trips = await trx
+    .selectFrom('trip as t')
+    .innerJoin('spacecraft as s', 's.id', 't.spacecraft_id')
+    .select(['t.id', 't.spacecraft_id', 's.key', 't.loop_id', 't.kind', 't.quantity', 't.level', 't.side', 't.last_value', 't.limit_value', 't.limit_set_version', 't.cleared_at', 't.cleared_note'])
+    .where('t.id', 'in', [...tripIds])
+    .where('t.cleared_at', 'is not', null)
+    .where('t.cleared_note', 'is not', null)
+    .orderBy('t.id')
+    .execute();
+  const out: TripMailRoute[] = [];
+  for (const t of trips) {
+    const info = quantityInfo(t.quantity);
+    out.push(
+      await enqueueTripMail(
+        trx,
+        {
+          tripId: t.id,
+          event: 'cleared',
+          kind: t.kind,
+          level: t.level,
+          spacecraftKey: t.key,
+          spacecraftId: t.spacecraft_id,
+          loopId: t.loop_id,
+          quantity: t.quantity,
+          quantityLabel: info?.label ?? t.quantity,
+          unit: info?.unit ?? '',
+          value: t.last_value,
+          limit: t.limit_value,
+          limitSide: t.side,
+          at: t.cleared_at!,
+          limitSetVersion: t.limit_set_version,
+          closedNote: t.cleared_note,
+        },
+        now,
+      ),
+    );
+  }
+  return out;
 }
