@@ -9,8 +9,11 @@ import { createIngestToken } from '../src/lib/server/ingest-tokens';
 import { findSheetInForce } from '../src/lib/server/spacecraft';
 import { config } from '../src/lib/server/config';
 import { BACKFILL_HOURS, BACKFILL_SCENARIOS, SCENARIOS } from './demo-fleet';
+import { writeConfigStations } from './passes';
 
 const LABEL = 'demo feed';
+/** How often the ground stations are read again from the database (the feed follows the configuration file within a minute). */
+const STATION_REREAD_MS = 10 * 60_000;
 
 const file = path.resolve('.data/demo-feed.json');
 // A restart within a few hours resumes the same simulated timeline (the sim regenerates it
@@ -50,17 +53,32 @@ for (const sc of fleet) {
   spacecraft.push({ key: sc.key, token, sheet: sheet.sheet, scenario: scenarioOf(sc.key), startedAtMs });
 }
 // The feed predicts its passes with the same element sets and stations the app stores passes from.
-const stations = await db.selectFrom('ground_station').select(['key', 'latitude_deg', 'longitude_deg', 'altitude_m', 'elevation_mask_deg']).orderBy('key').execute();
-await db.destroy();
+const readStations = () => db.selectFrom('ground_station').select(['key', 'latitude_deg', 'longitude_deg', 'altitude_m', 'elevation_mask_deg']).orderBy('key').execute();
+const stations = await readStations();
 if (!spacecraft.length) {
   console.error('[feed] no spacecraft with a sheet to simulate');
+  await db.destroy();
   process.exit(1);
 }
 fs.mkdirSync(path.dirname(file), { recursive: true });
 fs.writeFileSync(file, JSON.stringify({ baseUrl: config().PUBLIC_URL, spacecraft, ...(stations.length ? { stations } : {}) }, null, 2), { mode: 0o600 });
+// Station edits reach the running feed: the stations are read again now and then and, when they
+// changed, written into the configuration file, which the feed re-reads (its passes follow).
+const reread = setInterval(() => {
+  readStations()
+    .then((now) => {
+      if (writeConfigStations(file, now)) console.log(`[feed] ground stations changed: ${now.map((s) => s.key).join(', ') || 'none'}; the feed's passes follow`);
+    })
+    .catch((err: Error) => console.error(`[feed] could not re-read the ground stations: ${err.message}`));
+}, STATION_REREAD_MS);
 let child: ReturnType<typeof spawn> | null = null;
 let stopping = false;
 for (const sig of ['SIGINT', 'SIGTERM'] as const) process.on(sig, () => { stopping = true; child?.kill(sig); });
+const exit = async (code: number) => {
+  clearInterval(reread);
+  await db.destroy().catch(() => undefined);
+  process.exit(code);
+};
 const feed = (args: string[]) =>
   new Promise<number>((resolve) => {
     child = spawn(process.execPath, ['--import', 'tsx', 'ingest/feed.ts', '--config', file, ...args], { stdio: 'inherit' });
@@ -69,6 +87,6 @@ const feed = (args: string[]) =>
 if (backfill) {
   console.log(`[feed] no telemetry stored yet: playing back the last ${BACKFILL_HOURS} h first`);
   const code = await feed(['--playback', '--hours', String(BACKFILL_HOURS)]);
-  if (code !== 0 || stopping) process.exit(code);
+  if (code !== 0 || stopping) await exit(code);
 }
-process.exit(await feed(process.argv.slice(2)));
+await exit(await feed(process.argv.slice(2)));

@@ -17,7 +17,7 @@ import { parseArgs } from 'node:util';
 import { generatePackets, PacketStream } from './generator';
 import { loadFeedConfig } from './feed-config.schema';
 import type { FeedConfig } from './feed-config.schema';
-import { DEFAULT_STATIONS, createPassSchedule } from './passes';
+import { DEFAULT_STATIONS, STATION_FILE_CHECK_MS, createPassSchedule, fileStationReader } from './passes';
 import type { Pass, PassSchedule } from './passes';
 import { Backoff, MAX_REQUEST_BYTES, countPackets, formatOutcome, postPackets, takeBatch } from './uplink';
 
@@ -207,14 +207,15 @@ class RealTimeFeed {
   }
 }
 
-/** Each spacecraft's contact schedule: predicted from its sheet's element set, or the fixed one. */
-function schedulesOf(cfg: FeedConfig): Map<string, PassSchedule> {
+/** Each spacecraft's contact schedule: predicted from its sheet's element set (over the stations the configuration file lists, re-read when it changes), or the fixed one. */
+function schedulesOf(cfg: FeedConfig, configFile: string): Map<string, PassSchedule> {
   const out = new Map<string, PassSchedule>();
+  const read = fileStationReader(configFile, (f) => loadFeedConfig(f).stationSites);
   for (const sc of cfg.spacecraft) {
     const schedule =
       cfg.schedule === 'fixed'
         ? createPassSchedule(sc.key, { schedule: 'fixed', stations: cfg.stations ?? DEFAULT_STATIONS })
-        : createPassSchedule(sc.key, { schedule: 'predicted', tle: sc.sheet.orbit.tle, stations: cfg.stationSites });
+        : createPassSchedule(sc.key, { schedule: 'predicted', tle: sc.sheet.orbit.tle, stations: cfg.stationSites, reloadStations: { read, everyMs: STATION_FILE_CHECK_MS } });
     out.set(sc.key, schedule);
   }
   return out;
@@ -347,7 +348,7 @@ async function main(): Promise<number> {
       return 2;
     }
     try {
-      schedules = schedulesOf(cfg);
+      schedules = schedulesOf(cfg, args.values.config);
     } catch (err) {
       process.stderr.write(`cannot predict passes: ${(err as Error).message}\n`);
       return 2;

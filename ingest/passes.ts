@@ -6,6 +6,8 @@
  * taken in turn), for tests that need a pass at a known time.
  */
 
+import fs from 'node:fs';
+import path from 'node:path';
 import { findPasses, parseTle, stationFromDegrees, type GroundStation, type Satellite } from '../src/lib/orbit';
 
 /** One contact window of a spacecraft with a ground station. */
@@ -43,6 +45,13 @@ export interface PredictedScheduleOptions {
   /** The two lines of the spacecraft's element set (its sheet's orbit.tle). */
   tle: readonly [string, string];
   stations: readonly FeedStation[];
+  /**
+   * Re-read the stations now and then, so that a station added, moved or removed reaches a running
+   * feed: `read` is called at most once per `everyMs` (on the schedule's own clock, `now`, default
+   * Date.now); when it gives a different list the predictions are made again over it. A read that
+   * fails or gives null keeps the stations in use.
+   */
+  reloadStations?: { read: () => readonly FeedStation[] | null; everyMs: number; now?: () => number };
 }
 
 export type PassScheduleOptions = FixedScheduleOptions | PredictedScheduleOptions;
@@ -123,12 +132,44 @@ export interface PassSchedule {
 
 class PredictedSchedule {
   private readonly sat: Satellite;
-  private readonly sites: { key: string; station: GroundStation }[];
+  private sites: { key: string; station: GroundStation }[] = [];
   private readonly chunks = new Map<number, Pass[]>();
+  private stationsKey = '';
+  private readonly reload: PredictedScheduleOptions['reloadStations'];
+  private lastReadMs: number;
 
   constructor(opts: PredictedScheduleOptions) {
     this.sat = parseTle(opts.tle[0], opts.tle[1]);
-    this.sites = opts.stations.map((s) => ({ key: s.key, station: stationFromDegrees(s.latitude_deg, s.longitude_deg, s.altitude_m, s.elevation_mask_deg) }));
+    this.useStations(opts.stations);
+    this.reload = opts.reloadStations;
+    this.lastReadMs = this.reload ? (this.reload.now ?? Date.now)() : 0;
+  }
+
+  /** Predict over these stations from now on (predictions already made are dropped when the list changed). */
+  private useStations(stations: readonly FeedStation[]): void {
+    const key = stationsKey(stations);
+    if (key === this.stationsKey) return;
+    this.stationsKey = key;
+    this.sites = stations.map((s) => ({ key: s.key, station: stationFromDegrees(s.latitude_deg, s.longitude_deg, s.altitude_m, s.elevation_mask_deg) }));
+    this.chunks.clear();
+  }
+
+  private maybeReload(): void {
+    if (!this.reload) return;
+    const now = (this.reload.now ?? Date.now)();
+    if (now - this.lastReadMs < this.reload.everyMs) return;
+    this.lastReadMs = now;
+    let stations: readonly FeedStation[] | null;
+    try {
+      stations = this.reload.read();
+    } catch (err) {
+      process.stderr.write(`[feed] re-reading the ground stations failed, keeping those in use: ${(err as Error).message}\n`);
+      return;
+    }
+    if (!stations) return;
+    const before = this.stationsKey;
+    this.useStations(stations);
+    if (this.stationsKey !== before) process.stdout.write(`${new Date(now).toISOString()} ground stations re-read: passes now predicted over ${stations.map((s) => s.key).join(', ') || 'no station'}\n`);
   }
 
   /** Whole passes over every station with AOS in chunk n. */
@@ -150,6 +191,7 @@ class PredictedSchedule {
   }
 
   between(fromMs: number, toMs: number): Pass[] {
+    this.maybeReload();
     if (!(toMs > fromMs)) return [];
     const raw: Pass[] = [];
     const first = Math.floor((fromMs - PLAN_MARGIN_MS) / CHUNK_MS);
@@ -157,6 +199,56 @@ class PredictedSchedule {
     for (let n = first; n <= last; n++) raw.push(...this.chunk(n));
     return contactPlan(raw).filter((p) => p.losMs > fromMs && p.aosMs < toMs);
   }
+}
+
+/** Stations in a canonical form (sorted by key), to tell whether a re-read list differs. */
+function stationsKey(stations: readonly FeedStation[]): string {
+  return JSON.stringify(
+    [...stations].sort((a, b) => (a.key < b.key ? -1 : a.key > b.key ? 1 : 0)).map((s) => [s.key, s.latitude_deg, s.longitude_deg, s.altitude_m, s.elevation_mask_deg]),
+  );
+}
+
+/** How often a running feed looks at its configuration file for changed stations. */
+export const STATION_FILE_CHECK_MS = 60_000;
+
+/**
+ * A reader of a configuration file's stations for `reloadStations`: the file is parsed again (by
+ * `parse`) only when its modification time or size changed; otherwise the last list is given.
+ */
+export function fileStationReader(file: string, parse: (file: string) => readonly FeedStation[]): () => readonly FeedStation[] | null {
+  let seen = '';
+  let last: readonly FeedStation[] | null = null;
+  return () => {
+    const st = fs.statSync(file);
+    const mark = `${st.mtimeMs}:${st.size}`;
+    if (mark !== seen) {
+      last = parse(file);
+      seen = mark;
+    }
+    return last;
+  };
+}
+
+/**
+ * Put a new station list into a feed configuration file (written whole to a temporary file and
+ * renamed over it, so a reader never sees half a file); returns false, writing nothing, when the
+ * file already lists the same stations. No stations: the key is left out, as on a first write.
+ */
+export function writeConfigStations(file: string, stations: readonly FeedStation[]): boolean {
+  const json = JSON.parse(fs.readFileSync(file, 'utf8')) as { stations?: (FeedStation | string)[] };
+  const listed = json.stations ?? [];
+  const current = listed.filter((s): s is FeedStation => typeof s === 'object');
+  if (current.length === listed.length && stationsKey(current) === stationsKey(stations)) return false;
+  const next = {
+    ...json,
+    stations: stations.length
+      ? stations.map((s) => ({ key: s.key, latitude_deg: s.latitude_deg, longitude_deg: s.longitude_deg, altitude_m: s.altitude_m, elevation_mask_deg: s.elevation_mask_deg }))
+      : undefined,
+  };
+  const tmp = path.join(path.dirname(file), `.${path.basename(file)}.${process.pid}.tmp`);
+  fs.writeFileSync(tmp, JSON.stringify(next, null, 2), { mode: 0o600 });
+  fs.renameSync(tmp, file);
+  return true;
 }
 
 /** The contact schedule of a spacecraft: predicted passes, or the fixed schedule when asked for. */

@@ -6,7 +6,8 @@ import { encodePacket } from '../../src/lib/telemetry';
 import { createIngestToken } from '../../src/lib/server/ingest-tokens';
 import { insertSpacecraftWithSheet } from '../../src/lib/server/spacecraft';
 import { spacecraftSheetSchema, type SpacecraftSheet } from '../../src/lib/spacecraft-sheet.schema';
-import { formatSse, parseLivePayload, thinPerSecond } from '../../src/lib/server/live';
+import { HISTORY_MS, formatSse, loadPassWatch, parseLivePayload, thinPerSecond } from '../../src/lib/server/live';
+import { formatUtc } from '../../src/lib/format';
 import { SeriesBuffer } from '../../src/features/pass-watch/live-store';
 
 /** One dispatched server-sent event. */
@@ -404,6 +405,61 @@ describe('against the running app', () => {
       const later = (await openStream(operator, `/api/live/${key}?once=1`)).reader!;
       const trips = JSON.parse((await later.next('trips')).data).trips;
       expect(trips.map((t: { id: number; state: string }) => [t.id, t.state])).toEqual([[trip.id, 'acknowledged']]);
+    });
+  });
+
+  describe('Pass watch outside a pass', () => {
+    it('shows the latest known state of each loop and of the body, with its time, when the newest data is older than the history it loads', async () => {
+      const oldKey = `LQ-${Date.now().toString(36).toUpperCase().slice(-6)}`;
+      const sc = await insertSpacecraftWithSheet(db, { ...sheet, spacecraft: { key: oldKey, name: 'Quiet craft' } }, null);
+      const oldToken = (await createIngestToken(db, sc.id, 'latest state test', null)).token;
+      // Two seconds of attitude and loop-0 housekeeping, sampled two hours ago (a dump after the last pass).
+      const endMs = Math.floor(Date.now() / 1000) * 1000 - 2 * 3600_000;
+      const parts: Uint8Array[] = [];
+      for (let i = 0; i < 20; i++) {
+        const ms = endMs - (19 - i) * 100;
+        parts.push(encodePacket(attitudeRecord(i, ms)), encodePacket(loopRecord(i, ms, 0, i === 19 ? 6 : 5)));
+      }
+      const res = await fetch(`${BASE_URL}/api/ingest?station=ribeira`, {
+        method: 'POST',
+        headers: { authorization: `Bearer ${oldToken}`, 'content-type': 'application/octet-stream' },
+        body: Buffer.from(concatBytes(parts)),
+      });
+      expect(res.status, await res.clone().text()).toBe(200);
+      expect(((await res.json()) as { accepted: number }).accepted).toBe(40);
+
+      const nowMs = Date.now();
+      const snap = await loadPassWatch(db, { id: sc.id, key: oldKey, name: 'Quiet craft' }, nowMs);
+      // The history (15 min, or the pass under way) holds nothing of two hours ago …
+      expect(nowMs - HISTORY_MS).toBeGreaterThan(endMs);
+      expect(snap.historyFromMs).toBeGreaterThan(endMs);
+      expect(snap.history.loops.every((l) => l.t.length === 0)).toBe(true);
+      expect(snap.history.attitude.t).toEqual([]);
+      // … the latest known state does: the newest sample of loop 0 and of the body, with its sample time.
+      expect(snap.latest.loops.map((l) => l.loopId)).toEqual([0]);
+      const l0 = snap.latest.loops[0]!;
+      expect(l0.t).toHaveLength(1);
+      expect(l0.t[0]).toBeCloseTo(endMs, 0);
+      const want = loopRecord(19, endMs, 0, 6);
+      expect(l0.current[0]).toBeCloseTo(want.measuredCurrent_a, 4);
+      expect(l0.flow[0]).toBeCloseTo(want.flowVelocity_m_s, 5);
+      expect(l0.pressure[0]).toBeCloseTo(want.pressureRise_pa, 2);
+      expect(l0.electrodeTemp[0]).toBe(23.25);
+      expect(l0.momentum[0]).not.toBeNull();
+      expect(snap.latest.attitude.t).toHaveLength(1);
+      expect(snap.latest.attitude.t[0]).toBeCloseTo(endMs, 0);
+      expect(snap.latest.attitude.x[0]).toBeCloseTo(0.001, 6);
+      expect(snap.latest.attitude.y[0]).toBeCloseTo(-0.002, 6);
+      // The page paints those readouts with their time, marked as the latest known values.
+      const page = await operator.get(`/pass-watch/${oldKey}`);
+      expect(page.status).toBe(200);
+      const html = await page.text();
+      const l0Text = /data-testid="readouts-time-L0"[^>]*>(.*?)<\/p>/s.exec(html)?.[1] ?? '';
+      expect(l0Text).toContain(formatUtc(endMs));
+      expect(l0Text).toContain('latest known');
+      const bodyText = /data-testid="readouts-time-body"[^>]*>(.*?)<\/p>/s.exec(html)?.[1] ?? '';
+      expect(bodyText).toContain(formatUtc(endMs));
+      expect(html).toContain(want.measuredCurrent_a.toFixed(2));
     });
   });
 

@@ -9,6 +9,8 @@ import { deleteStation, insertStation } from '../../src/lib/server/stations';
 import { findPasses, parseTle, stationFromDegrees, type Pass } from '../../src/lib/orbit';
 import { independentElevation } from '../unit/orbit/fixtures';
 import { EPOCH_2000_UNIX_S } from '../../src/lib/telemetry/types';
+import { loadPassWatch } from '../../src/lib/server/live';
+import { listPassLog } from '../../src/lib/server/pass-log';
 
 const MINUTE = 60_000;
 const HOUR = 60 * MINUTE;
@@ -317,5 +319,178 @@ describe('ground stations through the API', () => {
     const last = await db.selectFrom('audit_log').select('action').where('target_id', '=', key).orderBy('id', 'desc').executeTakeFirstOrThrow();
     expect(last.action).toBe('station.delete');
     expect((await engineer.request('DELETE', `/api/stations/${key}`)).status).toBe(404);
+  });
+});
+
+/** An ingest batch row of a spacecraft through a station, received at a time. */
+function batchRow(stationId: number, spacecraftId: number, atMs: number, n: { realtime: number; playback: number; bytes: number; duplicates?: number; rejected?: number }) {
+  return {
+    spacecraft_id: spacecraftId,
+    station_id: stationId,
+    source: 'post' as const,
+    received_at: new Date(atMs),
+    bytes: n.bytes,
+    accepted: n.realtime + n.playback,
+    duplicates: n.duplicates ?? 0,
+    rejected: n.rejected ?? 0,
+    idle: 0,
+    realtime: n.realtime,
+    playback: n.playback,
+    first_time_tag: timeTag(atMs - 1000),
+    last_time_tag: timeTag(atMs),
+  };
+}
+
+interface ApiPass {
+  id: number;
+  station: string;
+  aos: string;
+  los: string;
+}
+
+describe('Pass watch and the pass log', () => {
+  it('show the stored passes, the same as the Passes API, after a station edit: past passes as they were predicted, upcoming ones at the new mask', async () => {
+    const engineer = await clientAs('engineer');
+    const sc = await newSpacecraft('MR-1');
+    const key = `pw-${tag()}`;
+    const created = await engineer.post('/api/stations', { key, name: 'Pass watch Fell', latitude_deg: 62.4, longitude_deg: 17.3, altitude_m: 150, elevation_mask_deg: 5 });
+    expect(created.status, await created.clone().text()).toBe(201);
+    const createdAt = Date.now();
+    try {
+      const edited = await engineer.request('PATCH', `/api/stations/${key}`, { json: { elevation_mask_deg: 25 } });
+      expect(edited.status, await edited.clone().text()).toBe(200);
+      const nowMs = Date.now();
+      const res = await engineer.get(`/api/passes?spacecraft=${sc.key}`);
+      expect(res.status).toBe(200);
+      const api = ((await res.json()) as { passes: ApiPass[] }).passes.map((p) => ({ id: p.id, station: p.station, aosMs: Date.parse(p.aos), losMs: Date.parse(p.los) }));
+      const row = (p: { id: number | null; station: string; aosMs: number; losMs: number }) => [p.id, p.station, p.aosMs, p.losMs];
+
+      // Pass watch: the stored passes of the day either side of now, ids and times as the Passes API gives them.
+      const inner = (p: { aosMs: number; losMs: number }) => p.losMs >= nowMs - DAY + HOUR && p.aosMs <= nowMs + DAY - HOUR;
+      const snap = await loadPassWatch(db, { id: sc.id, key: sc.key, name: sc.sheet.spacecraft.name }, nowMs);
+      expect(snap.passError).toBeNull();
+      const watched = snap.passes.filter(inner);
+      expect(watched.length).toBeGreaterThan(20);
+      expect(watched.map(row)).toEqual(api.filter(inner).map(row));
+
+      // The pass log (through its API): the begun passes of the last day, newest first, each the stored pass.
+      const logRes = await engineer.get(`/api/pass-log/${sc.key}`);
+      expect(logRes.status).toBe(200);
+      const log = (await logRes.json()) as { passes: { passId: number | null; station: string; aos: string; los: string }[]; error: string | null };
+      expect(log.error).toBeNull();
+      const begun = (p: { aosMs: number }) => p.aosMs >= nowMs - DAY + HOUR && p.aosMs <= nowMs;
+      const logged = log.passes.map((p) => ({ id: p.passId, station: p.station, aosMs: Date.parse(p.aos), losMs: Date.parse(p.los) })).filter(begun);
+      expect(logged.map(row)).toEqual(
+        api
+          .filter(begun)
+          .sort((a, b) => b.aosMs - a.aosMs)
+          .map(row),
+      );
+
+      // Over the edited station: passes that ended before the edit keep their 5° prediction (satellite.js alone puts
+      // the spacecraft at 5° at AOS and LOS), upcoming ones rise and set at 25°. A fresh prediction would give 25° for both.
+      const st = await db.selectFrom('ground_station').selectAll().where('key', '=', key).executeTakeFirstOrThrow();
+      const el = independentElevation(sc.sheet.orbit.tle, st.latitude_deg, st.longitude_deg, st.altitude_m);
+      const pastHere = logged.filter((p) => p.station === key && p.losMs < createdAt);
+      expect(pastHere.length).toBeGreaterThan(3);
+      for (const p of pastHere) {
+        expect(Math.abs(el(p.aosMs).elevation_deg - 5)).toBeLessThan(0.05);
+        expect(Math.abs(el(p.losMs).elevation_deg - 5)).toBeLessThan(0.05);
+      }
+      const upcomingHere = watched.filter((p) => p.station === key && p.aosMs > nowMs);
+      expect(upcomingHere.length).toBeGreaterThan(0);
+      for (const p of upcomingHere) expect(Math.abs(el(p.aosMs).elevation_deg - 25)).toBeLessThan(0.05);
+    } finally {
+      expect((await engineer.request('DELETE', `/api/stations/${key}`)).status).toBe(200);
+    }
+  });
+
+  it('count in each pass only what came through its own station, when passes over two stations overlap, as the Passes page does', async () => {
+    const sc = await newSpacecraft('MR-1');
+    // Two stations about 70 km apart: every pass over one overlaps a pass over the other.
+    const a = await insertStation(db, { key: `ova-${tag()}`, name: 'Overlap A', latitude_deg: 62.4, longitude_deg: 17.3, altitude_m: 0, elevation_mask_deg: 5 }, null);
+    const b = await insertStation(db, { key: `ovb-${tag()}`, name: 'Overlap B', latitude_deg: 63.0, longitude_deg: 18.0, altitude_m: 0, elevation_mask_deg: 5 }, null);
+    try {
+      const nowMs = Date.now();
+      await recomputePasses(db, sc.id, { now: new Date(nowMs) });
+      const pa = (await storedOf(sc.id, a.id)).filter((p) => p.los_at.getTime() < nowMs - 10 * MINUTE);
+      const pb = await storedOf(sc.id, b.id);
+      const pair = pa
+        .map((x) => ({ x, y: pb.find((y) => y.aos_at < x.los_at && y.los_at > x.aos_at) }))
+        .find((q) => q.y && Math.min(q.x.los_at.getTime(), q.y.los_at.getTime()) - Math.max(q.x.aos_at.getTime(), q.y.aos_at.getTime()) > 2 * MINUTE)!;
+      expect(pair, 'an overlapping pair of ended passes').toBeDefined();
+      const { x, y } = pair as { x: (typeof pa)[number]; y: (typeof pb)[number] };
+      const mid = (Math.max(x.aos_at.getTime(), y!.aos_at.getTime()) + Math.min(x.los_at.getTime(), y!.los_at.getTime())) / 2;
+      await db
+        .insertInto('ingest_batch')
+        .values([
+          batchRow(a.id, sc.id, mid, { realtime: 10, playback: 1, bytes: 1100, duplicates: 1 }),
+          batchRow(b.id, sc.id, mid + 1000, { realtime: 20, playback: 2, bytes: 2200, rejected: 3 }),
+          batchRow(b.id, sc.id, mid + 2000, { realtime: 30, playback: 0, bytes: 3000 }),
+        ])
+        .execute();
+      const log = await listPassLog(db, { id: sc.id, key: sc.key }, nowMs);
+      const ea = log.passes.find((e) => e.passId === x.id)!;
+      const eb = log.passes.find((e) => e.passId === y!.id)!;
+      expect(ea.station).toBe(a.key);
+      expect(eb.station).toBe(b.key);
+      expect(ea.data).toEqual({ batches: 1, accepted: 11, realtime: 10, playback: 1, duplicates: 1, rejected: 0, missing: 0 });
+      expect(eb.data).toEqual({ batches: 2, accepted: 52, realtime: 50, playback: 2, duplicates: 0, rejected: 3, missing: 0 });
+      // The Passes page counts the same for the same passes.
+      for (const [entry, id] of [
+        [ea, x.id],
+        [eb, y!.id],
+      ] as const) {
+        const r = (await findPassById(db, id, new Date(nowMs)))!.received!;
+        expect({ batches: r.batches, realtime: r.realtimePackets, playback: r.playbackPackets, duplicates: r.duplicates, rejected: r.rejected, missing: r.missingPackets }).toEqual({
+          batches: entry.data.batches,
+          realtime: entry.data.realtime,
+          playback: entry.data.playback,
+          duplicates: entry.data.duplicates,
+          rejected: entry.data.rejected,
+          missing: entry.data.missing,
+        });
+      }
+    } finally {
+      await db.deleteFrom('ingest_batch').where('station_id', 'in', [a.id, b.id]).execute();
+      await deleteStation(db, a.key, null);
+      await deleteStation(db, b.key, null);
+    }
+  });
+});
+
+describe('a new sheet through the API', () => {
+  it('recomputes the passes in the transaction that stores it: stored rows and the Passes API follow the new element set at once', async () => {
+    const engineer = await clientAs('engineer');
+    const sc = await newSpacecraft('MR-1');
+    await recomputePasses(db, sc.id);
+    const effective = new Date(Math.floor(Date.now() / 1000) * 1000 - MINUTE);
+    const second = sheetOf('MR-3', sc.key, effective.toISOString());
+    const res = await engineer.post(`/api/spacecraft/${sc.key}/sheets`, second);
+    expect(res.status, await res.clone().text()).toBe(201);
+    const secondId = ((await res.json()) as { id: number }).id;
+    const postedAt = Date.now();
+
+    // Read straight from the store, before any reader or the scheduler could refresh it.
+    const st = await db.selectFrom('ground_station').selectAll().where('key', '=', 'north-fell').executeTakeFirstOrThrow();
+    const upcoming = (await storedOf(sc.id, st.id)).filter((p) => p.los_at.getTime() > postedAt);
+    expect(upcoming.length).toBeGreaterThan(5);
+    expect(new Set(upcoming.filter((p) => p.aos_at >= effective).map((p) => p.sheet_id))).toEqual(new Set([secondId]));
+    const from = postedAt + 30 * MINUTE;
+    const to = postedAt + PASS_HORIZON_MS - 30 * MINUTE;
+    const want = expected(second.orbit.tle, st, from, to).map((p) => Math.round(p.aosMs / 1000));
+    const mr1 = expected(sc.sheet.orbit.tle, st, from, to).map((p) => Math.round(p.aosMs / 1000));
+    expect(want).not.toEqual(mr1);
+    const inner = (p: { aos_at: Date }) => p.aos_at.getTime() >= from && p.aos_at.getTime() < to;
+    expect(upcoming.filter(inner).map((p) => Math.round(p.aos_at.getTime() / 1000))).toEqual(want);
+    const horizon = await db.selectFrom('pass_horizon').select('computed_at').where('spacecraft_id', '=', sc.id).executeTakeFirstOrThrow();
+    expect(horizon.computed_at.getTime()).toBeGreaterThanOrEqual(effective.getTime());
+    expect((await refreshPassesIfStale(db)).some((r) => r.spacecraftId === sc.id)).toBe(false);
+
+    // The Passes API lists the same.
+    const api = (await (await engineer.get(`/api/passes?spacecraft=${sc.key}&station=north-fell`)).json()) as { passes: (ApiPass & { sheetId: number })[] };
+    const apiInner = api.passes.filter((p) => Date.parse(p.aos) >= from && Date.parse(p.aos) < to);
+    expect(apiInner.map((p) => Math.round(Date.parse(p.aos) / 1000))).toEqual(want);
+    expect(new Set(apiInner.map((p) => p.sheetId))).toEqual(new Set([secondId]));
   });
 });

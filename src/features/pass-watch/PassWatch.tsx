@@ -4,9 +4,9 @@ import type uPlot from 'uplot';
 import { getQueryClient } from '../../lib/query-client';
 import { StateBadge, type HealthState } from '../../components/StateBadge';
 import { formatUtc, formatValue } from '../../lib/format';
-import type { BatchEvent, LimitLevels, LiveTrip, PassWatchSnapshot } from '../../lib/server/live';
+import type { AttitudeSeries, BatchEvent, LimitLevels, LiveTrip, LoopSeries, PassWatchSnapshot } from '../../lib/server/live';
 import type { PassInfo } from '../../lib/server/pass-log';
-import { LiveStore, loopCol, type LoopCol } from './live-store';
+import { LiveStore, LOOP_COLS, loopCol, type LoopCol, type SeriesBuffer } from './live-store';
 import LiveChart, { type Band, type LimitLine } from './LiveChart';
 import TripQueue from './TripQueue';
 import PassLog from './PassLog';
@@ -33,6 +33,33 @@ export function loopState(trips: readonly LiveTrip[], newestMs: number | null, n
   if (trips.length) return 'caution';
   if (newestMs === null || nowMs - newestMs > staleAfterS * 1000) return 'stale';
   return 'nominal';
+}
+
+/** What a readout shows: the newest value on the charts, else the newest stored sample (however old), with its sample time. */
+export interface Readouts {
+  tMs: number | null;
+  value: (k: number) => number | null;
+}
+
+/** A loop's readouts from its chart buffer, falling back to the newest stored sample of the loop. */
+export function loopReadouts(buf: SeriesBuffer | undefined, latest: LoopSeries | undefined): Readouts {
+  if (buf && buf.newestMs !== null) return { tMs: buf.newestMs, value: (k) => buf.latest(k) };
+  if (latest && latest.t.length) {
+    const i = latest.t.length - 1;
+    return { tMs: latest.t[i]!, value: (k) => (latest[LOOP_COLS[k]!] as readonly (number | null)[])[i] ?? null };
+  }
+  return { tMs: null, value: () => null };
+}
+
+/** The body's readouts (ωx, ωy, ωz) from the chart buffer, falling back to the newest stored sample. */
+export function bodyReadouts(buf: SeriesBuffer, latest: AttitudeSeries | undefined): Readouts {
+  if (buf.newestMs !== null) return { tMs: buf.newestMs, value: (k) => buf.latest(k) };
+  if (latest && latest.t.length) {
+    const i = latest.t.length - 1;
+    const cols = [latest.x, latest.y, latest.z];
+    return { tMs: latest.t[i]!, value: (k) => cols[k]?.[i] ?? null };
+  }
+  return { tMs: null, value: () => null };
 }
 
 const isLive = (t: LiveTrip) => t.state !== 'resolved' && !t.cleared_at;
@@ -324,9 +351,10 @@ function PassWatchView({ snapshot, passLog, roles }: Props) {
             {snapshot.loops.map((l) => {
               const buf = store.loops.get(l.id);
               const lt = liveTrips.filter((t) => t.loop_id === l.id);
-              const state = loopState(lt, buf?.newestMs ?? snapshot.lastDataMs, nowMs, snapshot.staleAfterS);
+              const ro = loopReadouts(buf, snapshot.latest.loops.find((x) => x.loopId === l.id));
+              const state = loopState(lt, ro.tMs ?? snapshot.lastDataMs, nowMs, snapshot.staleAfterS);
               const w = snapshot.analysed.find((a) => a.loopId === l.id);
-              const loopNewest = buf?.newestMs ?? null;
+              const loopNewest = ro.tMs;
               return (
                 <article key={l.id} className="panel" aria-label={`Loop L${l.id} health`}>
                   <header className="flex items-center justify-between border-b border-rule px-3 py-2">
@@ -343,7 +371,7 @@ function PassWatchView({ snapshot, passLog, roles }: Props) {
                   <table className="table-compact mt-1">
                     <tbody>
                       {READOUTS.map((r) => {
-                        const v = buf?.latest(loopCol(r.col)) ?? null;
+                        const v = ro.value(loopCol(r.col));
                         const lvl = levelOf(v, limitLines(snapshot.limits, [r.quantity], l.id), snapshot.limits, r.quantity, l.id);
                         return (
                           <tr key={r.col}>
@@ -357,6 +385,16 @@ function PassWatchView({ snapshot, passLog, roles }: Props) {
                       })}
                     </tbody>
                   </table>
+                  <p className="px-3 pt-1 text-xs text-muted" data-testid={`readouts-time-L${l.id}`}>
+                    {ro.tMs !== null ? (
+                      <>
+                        values at <span className="num text-ink">{formatUtc(ro.tMs)} UTC</span> ({ago(nowMs - ro.tMs)}
+                        {buf?.newestMs === null || buf?.newestMs === undefined ? ', latest known' : ''})
+                      </>
+                    ) : (
+                      'no sample of this loop stored yet'
+                    )}
+                  </p>
                   <p className="px-3 py-2 text-xs text-muted">
                     rated <span className="num">{l.ratedCurrent_A}</span> A · capacity <span className="num">{formatValue(l.capacity_Nms * 1e3)}</span> mN·m·s
                     {w ? (
@@ -372,25 +410,43 @@ function PassWatchView({ snapshot, passLog, roles }: Props) {
                 </article>
               );
             })}
-            <article className="panel" aria-label="Body health">
-              <header className="flex items-center justify-between border-b border-rule px-3 py-2">
-                <h2 className="text-sm">Body</h2>
-                <StateBadge state={loopState(liveTrips.filter((t) => t.loop_id === null), att.newestMs ?? snapshot.lastDataMs, nowMs, snapshot.staleAfterS)} />
-              </header>
-              <table className="table-compact">
-                <tbody>
-                  {(['ωx', 'ωy', 'ωz'] as const).map((label, k) => (
-                    <tr key={label}>
-                      <td className="text-xs text-muted">{label}</td>
-                      <td className="n">
-                        {formatValue(att.latest(k) === null ? null : att.latest(k)! * 1e3)} <span className="unit">mrad/s</span>
-                      </td>
-                    </tr>
-                  ))}
-                </tbody>
-              </table>
-              <p className="px-3 py-2 text-xs text-muted">{liveTrips.filter((t) => t.loop_id === null).length} live body trip(s)</p>
-            </article>
+            {(() => {
+              const ro = bodyReadouts(att, snapshot.latest.attitude);
+              return (
+                <article className="panel" aria-label="Body health">
+                  <header className="flex items-center justify-between border-b border-rule px-3 py-2">
+                    <h2 className="text-sm">Body</h2>
+                    <StateBadge state={loopState(liveTrips.filter((t) => t.loop_id === null), ro.tMs ?? snapshot.lastDataMs, nowMs, snapshot.staleAfterS)} />
+                  </header>
+                  <table className="table-compact">
+                    <tbody>
+                      {(['ωx', 'ωy', 'ωz'] as const).map((label, k) => {
+                        const v = ro.value(k);
+                        return (
+                          <tr key={label}>
+                            <td className="text-xs text-muted">{label}</td>
+                            <td className="n">
+                              {formatValue(v === null ? null : v * 1e3)} <span className="unit">mrad/s</span>
+                            </td>
+                          </tr>
+                        );
+                      })}
+                    </tbody>
+                  </table>
+                  <p className="px-3 pt-1 text-xs text-muted" data-testid="readouts-time-body">
+                    {ro.tMs !== null ? (
+                      <>
+                        values at <span className="num text-ink">{formatUtc(ro.tMs)} UTC</span> ({ago(nowMs - ro.tMs)}
+                        {att.newestMs === null ? ', latest known' : ''})
+                      </>
+                    ) : (
+                      'no body rate stored yet'
+                    )}
+                  </p>
+                  <p className="px-3 py-2 text-xs text-muted">{liveTrips.filter((t) => t.loop_id === null).length} live body trip(s)</p>
+                </article>
+              );
+            })()}
           </section>
 
           <section aria-label="Link quality" className="space-y-1">

@@ -5,7 +5,7 @@ import { config } from './config';
 import { findSheetInForce, STALE_AFTER_S } from './spacecraft';
 import { findActiveLimitSet } from './limit-sets';
 import { findTrip, listTrips, type TripRow } from './trips';
-import { predictPasses, type PassInfo } from './pass-log';
+import { storedPasses, type PassInfo } from './pass-log';
 import { loopMomentum } from '../physics/loop-geometry';
 import { momentumCapacity, momentumMarginInUse } from '../physics/momentum';
 import { EPOCH_2000_UNIX_S } from '../telemetry/types';
@@ -23,6 +23,8 @@ export const HISTORY_POINTS_PER_S = 1;
 export const LIVE_HORIZON_MS = 30 * 60_000;
 /** How much history Pass watch loads outside a pass. */
 export const HISTORY_MS = 15 * 60_000;
+/** The latest known state of each loop and of the body is looked for this far back. */
+export const LATEST_LOOKBACK_MS = 7 * 86_400_000;
 /** Comment lines keep idle connections (and proxies) open. */
 export const HEARTBEAT_MS = 15_000;
 /** Batches per catch-up query. */
@@ -119,6 +121,11 @@ export interface PassWatchSnapshot {
   passError: string | null;
   historyFromMs: number;
   history: LiveSeries;
+  /**
+   * The newest stored sample of the body and of each loop (at most one point per series, whatever its
+   * age), so that readouts show the latest known state when the history holds nothing.
+   */
+  latest: { attitude: AttitudeSeries; loops: LoopSeries[] };
   trips: LiveTrip[];
   analysed: LoopAnalysed[];
   lastDataMs: number | null;
@@ -270,6 +277,29 @@ export async function loadSeries(db: Db, spacecraftId: number, fromMs: number, t
   return { ...buildSeries(rows.att, rows.loops, meta, perSecond), gaps: gaps.rows.map(toGap) };
 }
 
+/** The newest stored row of the body and of each loop of a spacecraft, sampled at or before `toMs`, as one-point series. */
+export async function loadLatest(db: Db, spacecraftId: number, toMs: number, meta?: Map<number, LoopMeta>): Promise<{ attitude: AttitudeSeries; loops: LoopSeries[] }> {
+  const loops = meta ?? (await loopMetaOf(db, spacecraftId));
+  const hi = timeTagOfMs(toMs) + 1;
+  const lo = timeTagOfMs(toMs - LATEST_LOOKBACK_MS);
+  const tFrom = new Date(toMs - LATEST_LOOKBACK_MS - 1);
+  const tTo = new Date(toMs + 1);
+  const [att, loopRows] = await Promise.all([
+    sql<AttRow>`SELECT batch_id, time_tag, rate_x_rad_s, rate_y_rad_s, rate_z_rad_s FROM attitude_sample
+      WHERE spacecraft_id = ${spacecraftId} AND time_tag BETWEEN ${lo} AND ${hi} AND t BETWEEN ${tFrom} AND ${tTo}
+      ORDER BY time_tag DESC, seq DESC LIMIT 1`.execute(db),
+    sql<LoopRow>`SELECT x.* FROM unnest(${[...loops.keys()]}::int[]) AS l(loop_id)
+      CROSS JOIN LATERAL (
+        SELECT batch_id, loop_id, time_tag, measured_current_a, flow_velocity_m_s, pressure_rise_pa, fluid_temp_c, electrode_temp_c, magnet_temp_c FROM loop_sample
+        WHERE spacecraft_id = ${spacecraftId} AND loop_id = l.loop_id AND time_tag BETWEEN ${lo} AND ${hi} AND t BETWEEN ${tFrom} AND ${tTo}
+        ORDER BY time_tag DESC, seq DESC LIMIT 1
+      ) x
+      ORDER BY x.loop_id`.execute(db),
+  ]);
+  const s = buildSeries(att.rows, loopRows.rows, loops, 1);
+  return { attitude: s.attitude, loops: s.loops };
+}
+
 // ── the event log ───────────────────────────────────────────────────────────────────────────
 /** The newest event number of a spacecraft (0 before its first stored batch). */
 export async function currentLiveSeq(db: Db, spacecraftId: number): Promise<number> {
@@ -359,7 +389,7 @@ async function findLiveTrip(db: Db, id: number): Promise<LiveTrip | null> {
 // ── the page snapshot ───────────────────────────────────────────────────────────────────────
 /** Everything Pass watch paints first, read in one repeatable-read snapshot so that the live stream continues exactly after it. */
 export async function loadPassWatch(db: Kysely<Database>, sc: { id: number; key: string; name: string }, nowMs = Date.now()): Promise<PassWatchSnapshot> {
-  const { passes, error: passError } = await predictPasses(db, sc.id, nowMs - 24 * 3600_000, nowMs + 24 * 3600_000, nowMs);
+  const { passes, error: passError } = await storedPasses(db, sc, nowMs - 24 * 3600_000, nowMs + 24 * 3600_000, nowMs);
   const current = passes.find((p) => p.aosMs <= nowMs && nowMs <= p.losMs);
   const historyFromMs = Math.min(nowMs - HISTORY_MS, current ? current.aosMs - 2 * 60_000 : Infinity);
   return db
@@ -367,10 +397,11 @@ export async function loadPassWatch(db: Kysely<Database>, sc: { id: number; key:
     .setIsolationLevel('repeatable read')
     .execute(async (trx) => {
       const seq = await currentLiveSeq(trx, sc.id);
-      const [meta, limitSet, history, trips, analysed, last] = await Promise.all([
-        loopMetaOf(trx, sc.id, nowMs),
+      const meta = await loopMetaOf(trx, sc.id, nowMs);
+      const [limitSet, history, latest, trips, analysed, last] = await Promise.all([
         findActiveLimitSet(trx, sc.id),
         loadSeries(trx, sc.id, historyFromMs, nowMs + 60_000),
+        loadLatest(trx, sc.id, nowMs + 60_000, meta),
         listUnresolvedTrips(trx, sc.key),
         sql<{ loop_id: number; window_start: Date; effectiveness: number | null; margin_in_use_pct: number | null; momentum_abs_mean_nms: number | null; electrode_temp_mean_c: number | null }>`
           SELECT DISTINCT ON (loop_id) loop_id, window_start, effectiveness, margin_in_use_pct, momentum_abs_mean_nms, electrode_temp_mean_c
@@ -397,6 +428,7 @@ export async function loadPassWatch(db: Kysely<Database>, sc: { id: number; key:
         passError,
         historyFromMs,
         history,
+        latest,
         trips,
         analysed: analysed.rows.map((w) => ({
           loopId: w.loop_id,

@@ -3,15 +3,18 @@ import type { Database } from './db/schema';
 import { HttpError } from './http';
 import { insertAuditEntry } from './audit';
 import { findSheetInForce } from './spacecraft';
-import { findPasses, parseTle, stationFromDegrees } from '../orbit';
+import { parseTle } from '../orbit';
+import { listPasses, refreshPassesIfStale } from './passes';
 import { quantityInfo } from '../limits/quantities';
 import { EPOCH_2000_UNIX_S } from '../telemetry/types';
 import type { SessionUser } from './auth/roles';
 
 type Db = Kysely<Database> | Transaction<Database>;
 
-/** A predicted pass over one ground station (times Unix ms). */
+/** A stored pass over one ground station (times Unix ms). */
 export interface PassInfo {
+  /** The stored pass (predicted_pass id), as the Passes page lists it. */
+  id: number;
   station: string;
   stationName: string;
   aosMs: number;
@@ -27,41 +30,44 @@ export const HANDOVER_MS = 15 * 60_000;
 /** The pass log looks back this far. */
 export const PASS_LOG_LOOKBACK_MS = 24 * 3600_000;
 
-/**
- * Passes of a spacecraft over every ground station with AOS in [fromMs, toMs), from the element set
- * of the sheet in force at `nowMs` (SGP4; AOS and LOS at each station's elevation mask), sorted by AOS.
- */
-export async function predictPasses(db: Db, spacecraftId: number, fromMs: number, toMs: number, nowMs = Date.now()): Promise<{ passes: PassInfo[]; error: string | null }> {
-  const [sheet, stations] = await Promise.all([
+/** Why a spacecraft has no stored passes, when something the prediction needs is missing or unusable. */
+async function whyNoPasses(db: Db, spacecraftId: number, nowMs: number): Promise<string | null> {
+  const [sheet, station] = await Promise.all([
     findSheetInForce(db, spacecraftId, new Date(nowMs)),
-    db.selectFrom('ground_station').select(['key', 'name', 'latitude_deg', 'longitude_deg', 'altitude_m', 'elevation_mask_deg']).orderBy('key').execute(),
+    db.selectFrom('ground_station').select('id').limit(1).executeTakeFirst(),
   ]);
-  if (!sheet) return { passes: [], error: 'The spacecraft has no sheet, so its passes cannot be predicted.' };
-  if (!stations.length) return { passes: [], error: 'No ground stations are registered, so there are no passes to predict.' };
-  let sat;
+  if (!sheet) return 'The spacecraft has no sheet, so its passes cannot be predicted.';
+  if (!station) return 'No ground stations are registered, so there are no passes to predict.';
   try {
-    sat = parseTle(sheet.sheet.orbit.tle[0], sheet.sheet.orbit.tle[1]);
+    parseTle(sheet.sheet.orbit.tle[0], sheet.sheet.orbit.tle[1]);
   } catch (err) {
-    return { passes: [], error: `The element set of the sheet in force cannot be used: ${(err as Error).message}` };
+    return `The element set of the sheet in force cannot be used: ${(err as Error).message}`;
   }
-  const out: PassInfo[] = [];
-  // Scan a little wider so that passes in progress at either end are whole.
-  const scanFrom = Math.floor((fromMs - 30 * 60_000) / 60_000) * 60_000;
-  for (const s of stations) {
-    const site = stationFromDegrees(s.latitude_deg, s.longitude_deg, s.altitude_m, s.elevation_mask_deg);
-    try {
-      for (const p of findPasses(sat, site, scanFrom, toMs + 30 * 60_000)) {
-        if (p.inProgressAtStart || p.inProgressAtEnd || p.aosMs >= toMs || p.losMs < fromMs) continue;
-        out.push({ station: s.key, stationName: s.name, aosMs: p.aosMs, tcaMs: p.tcaMs, losMs: p.losMs, maxElevation_deg: p.maxElevation_deg });
-      }
-    } catch (err) {
-      return { passes: [], error: `Pass prediction over ${s.name} failed: ${(err as Error).message}` };
-    }
-  }
-  return { passes: out.sort((a, b) => a.aosMs - b.aosMs || a.station.localeCompare(b.station)), error: null };
+  return null;
 }
 
-/** What reached the ground during a pass (batches received from AOS to LOS, any station). */
+/**
+ * The stored passes of a spacecraft overlapping [fromMs, toMs], in AOS order: the same rows the
+ * Passes page lists (each predicted with the sheet in force at its AOS, past passes kept as they
+ * were predicted), recomputed first when they are stale.
+ */
+export async function storedPasses(db: Db, sc: { id: number; key: string }, fromMs: number, toMs: number, nowMs = Date.now()): Promise<{ passes: PassInfo[]; error: string | null }> {
+  const now = new Date(nowMs);
+  await refreshPassesIfStale(db, now);
+  const rows = await listPasses(db, { spacecraft: sc.key, from: new Date(fromMs), to: new Date(toMs) }, now);
+  const passes = rows.map((p) => ({
+    id: p.id,
+    station: p.station,
+    stationName: p.stationName,
+    aosMs: Date.parse(p.aos),
+    tcaMs: Date.parse(p.tca),
+    losMs: Date.parse(p.los),
+    maxElevation_deg: p.maxElevation_deg,
+  }));
+  return { passes, error: passes.length ? null : await whyNoPasses(db, sc.id, nowMs) };
+}
+
+/** What reached the ground through the pass's station during the pass (batches received from AOS to LOS). */
 export interface PassData {
   batches: number;
   accepted: number;
@@ -96,6 +102,8 @@ export interface PassNote {
 
 /** One pass as the pass log lists it (times ISO, UTC). */
 export interface PassLogEntry {
+  /** The stored pass this entry is (as the Passes page lists it); null for a note on a pass no longer predicted. */
+  passId: number | null;
   station: string;
   stationName: string;
   aos: string;
@@ -109,12 +117,15 @@ export interface PassLogEntry {
 
 const tt = (ms: number) => Math.floor((ms / 1000 - EPOCH_2000_UNIX_S) * 65536);
 
-async function passData(db: Db, spacecraftId: number, aosMs: number, losMs: number): Promise<PassData> {
+/** Counted as the Passes page counts a pass: batches of this spacecraft through this station from AOS to LOS. */
+async function passData(db: Db, spacecraftId: number, station: string, aosMs: number, losMs: number): Promise<PassData> {
   const [b, g] = await Promise.all([
     sql<Omit<PassData, 'missing'>>`
       SELECT count(*)::int AS batches, coalesce(sum(accepted), 0)::int AS accepted, coalesce(sum(realtime), 0)::int AS realtime,
              coalesce(sum(playback), 0)::int AS playback, coalesce(sum(duplicates), 0)::int AS duplicates, coalesce(sum(rejected), 0)::int AS rejected
-      FROM ingest_batch WHERE spacecraft_id = ${spacecraftId} AND received_at >= ${new Date(aosMs)} AND received_at <= ${new Date(losMs)}`.execute(db),
+      FROM ingest_batch
+      WHERE spacecraft_id = ${spacecraftId} AND station_id = (SELECT id FROM ground_station WHERE key = ${station})
+        AND received_at >= ${new Date(aosMs)} AND received_at <= ${new Date(losMs)}`.execute(db),
     sql<{ missing: number }>`
       SELECT coalesce(sum(missing), 0)::int AS missing FROM sequence_gap
       WHERE spacecraft_id = ${spacecraftId} AND before_time_tag BETWEEN ${tt(aosMs)} AND ${tt(losMs)}`.execute(db),
@@ -160,10 +171,10 @@ async function passTrips(db: Db, spacecraftId: number, aosMs: number, losMs: num
  * handover notes, the trips handled in it and the data received; notes on passes no longer
  * predicted (a new element set) are kept as their own entries.
  */
-export async function listPassLog(db: Db, sc: { id: number }, nowMs = Date.now()): Promise<{ passes: PassLogEntry[]; error: string | null }> {
+export async function listPassLog(db: Db, sc: { id: number; key: string }, nowMs = Date.now()): Promise<{ passes: PassLogEntry[]; error: string | null }> {
   const fromMs = nowMs - PASS_LOG_LOOKBACK_MS;
   const [{ passes, error }, notes] = await Promise.all([
-    predictPasses(db, sc.id, fromMs, nowMs + 1, nowMs),
+    storedPasses(db, sc, fromMs, nowMs, nowMs),
     db
       .selectFrom('pass_note as n')
       .innerJoin('ground_station as g', 'g.id', 'n.station_id')
@@ -175,18 +186,19 @@ export async function listPassLog(db: Db, sc: { id: number }, nowMs = Date.now()
       .execute(),
   ]);
   const begun = passes.filter((p) => p.aosMs <= nowMs);
-  const entries = begun.map((p) => ({ station: p.station, stationName: p.stationName, aosMs: p.aosMs, losMs: p.losMs, maxElevation_deg: p.maxElevation_deg as number | null, notes: [] as PassNote[] }));
+  const entries = begun.map((p) => ({ passId: p.id as number | null, station: p.station, stationName: p.stationName, aosMs: p.aosMs, losMs: p.losMs, maxElevation_deg: p.maxElevation_deg as number | null, notes: [] as PassNote[] }));
   for (const n of notes) {
     const note = { id: n.id, note: n.note, author: n.author, createdAt: n.created_at.toISOString() };
     const hit = entries.find((e) => e.station === n.station && Math.abs(e.aosMs - n.aos_at.getTime()) <= PASS_MATCH_MS);
     if (hit) hit.notes.push(note);
-    else entries.push({ station: n.station, stationName: n.station_name, aosMs: n.aos_at.getTime(), losMs: n.los_at.getTime(), maxElevation_deg: null, notes: [note] });
+    else entries.push({ passId: null, station: n.station, stationName: n.station_name, aosMs: n.aos_at.getTime(), losMs: n.los_at.getTime(), maxElevation_deg: null, notes: [note] });
   }
   entries.sort((a, b) => b.aosMs - a.aosMs);
   const out: PassLogEntry[] = [];
   for (const e of entries) {
-    const [data, trips] = await Promise.all([passData(db, sc.id, e.aosMs, e.losMs), passTrips(db, sc.id, e.aosMs, e.losMs)]);
+    const [data, trips] = await Promise.all([passData(db, sc.id, e.station, e.aosMs, e.losMs), passTrips(db, sc.id, e.aosMs, e.losMs)]);
     out.push({
+      passId: e.passId,
       station: e.station,
       stationName: e.stationName,
       aos: new Date(e.aosMs).toISOString(),
@@ -213,7 +225,7 @@ export async function insertPassNote(
   nowMs = Date.now(),
 ): Promise<PassLogEntry> {
   const aosMs = new Date(input.aos).getTime();
-  const { passes, error } = await predictPasses(db, sc.id, aosMs - 3 * 3600_000, aosMs + 3 * 3600_000, nowMs);
+  const { passes, error } = await storedPasses(db, sc, aosMs - 3 * 3600_000, aosMs + 3 * 3600_000, nowMs);
   if (error) throw new HttpError('CONFLICT', error);
   const pass = passes.find((p) => p.station === input.station && Math.abs(p.aosMs - aosMs) <= PASS_MATCH_MS);
   if (!pass) throw new HttpError('BAD_REQUEST', `No predicted pass of ${sc.key} over ${input.station} begins near ${input.aos}.`, { aos: ['pick one of the passes the log lists'] });

@@ -1,4 +1,4 @@
-import type { Kysely } from 'kysely';
+import type { Kysely, Transaction } from 'kysely';
 import type { Database } from './db/schema';
 import { HttpError } from './http';
 import { spacecraftSheetSchema, sheetIssuesByPath, type SpacecraftSheet } from '../spacecraft-sheet.schema';
@@ -27,8 +27,17 @@ export function idealConstants(sheet: SpacecraftSheet): Record<number, number> {
   return Object.fromEntries(sheet.loops.map((l) => [l.id, idealTorqueConstant(l)]));
 }
 
-/** Validate and store a new sheet for a spacecraft; reports ideal-kT shifts against the previous sheet. */
-export async function addSheet(db: Kysely<Database>, sc: { id: number; key: string }, body: unknown, actorId: string) {
+/**
+ * Validate and store a new sheet for a spacecraft; reports ideal-kT shifts against the previous sheet.
+ * `opts.inTransaction` runs after the sheet is stored, in the same transaction (what depends on the sheet).
+ */
+export async function addSheet(
+  db: Kysely<Database>,
+  sc: { id: number; key: string },
+  body: unknown,
+  actorId: string,
+  opts: { inTransaction?: (trx: Transaction<Database>) => Promise<unknown> } = {},
+) {
   const parsed = spacecraftSheetSchema.safeParse(body);
   if (!parsed.success) throw new HttpError('BAD_REQUEST', 'The sheet has errors; see fields (JSON paths).', sheetIssuesByPath(parsed.error));
   const sheet = parsed.data;
@@ -54,6 +63,7 @@ export async function addSheet(db: Kysely<Database>, sc: { id: number; key: stri
     if (exists) throw new HttpError('CONFLICT', `A sheet effective from ${sheet.effectiveFrom} is already on record.`, { effectiveFrom: ['another sheet takes effect at this exact time; choose a different time'] });
     const newId = await insertSheet(trx, sc.id, sheet, actorId);
     await insertAuditEntry(trx, { actorId, action: 'sheet.add', targetType: 'spacecraft', targetId: sc.key, detail: { sheetId: newId, effectiveFrom: sheet.effectiveFrom, idealKtShifts: shifts } });
+    await opts.inTransaction?.(trx);
     return newId;
   });
   forgetLoopIds(sc.id);

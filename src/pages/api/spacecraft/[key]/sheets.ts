@@ -4,6 +4,7 @@ import { HttpError, handle, json } from '../../../../lib/server/http';
 import { requireRole } from '../../../../lib/server/auth/require';
 import { spacecraftFromParam } from '../../../../lib/server/params';
 import { addSheet, listSheets } from '../../../../lib/server/sheets';
+import { recomputePasses } from '../../../../lib/server/passes';
 
 export const GET: APIRoute = handle(async ({ locals, params }) => {
   requireRole(locals);
@@ -20,5 +21,6 @@ export const POST: APIRoute = handle(async ({ request, locals, params }) => {
   } catch {
     throw new HttpError('BAD_REQUEST', 'The body is not valid JSON; send the sheet as JSON.');
   }
-  return json(await addSheet(db, sc, body, user.id), 201);
+  // The spacecraft's passes follow the new element set at once, in the transaction that stores it.
+  return json(await addSheet(db, sc, body, user.id, { inTransaction: (trx) => recomputePasses(trx, sc.id) }), 201);
 });
