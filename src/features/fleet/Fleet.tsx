@@ -3,6 +3,7 @@ import { getQueryClient } from '../../lib/query-client';
 import { fleetQuery, type FleetResponse } from './fleet.queries';
 import { StateBadge } from '../../components/StateBadge';
 import type { FleetLoop } from '../../lib/server/spacecraft';
+import { EFFECTIVENESS_LOOKBACK_H } from './lookback';
 
 function shapeText(shape: FleetLoop['shape']): string {
   if (shape.kind === 'circle') return `circle, R ${(shape.radius_m * 1000).toFixed(0)} mm`;
@@ -19,6 +20,24 @@ function ageText(iso: string): string {
   if (s < 90) return `${Math.round(s)} s ago (${when})`;
   if (s < 5400) return `${Math.round(s / 60)} min ago (${when})`;
   return `at ${iso.slice(0, 16).replace('T', ' ')} UTC`;
+}
+
+/**
+ * The loop's newest effectiveness estimate. A window without enough current excitation carries
+ * none, so the estimate shown may be older than the latest window; its window time is then shown
+ * beneath it.
+ */
+function EffectCell({ loop }: { loop: FleetLoop }) {
+  const e = loop.effectiveness;
+  if (!e) return <span title={`No effectiveness estimate within ${EFFECTIVENESS_LOOKBACK_H} h of the latest window (too little current excitation, or no analysed data)`}>—</span>;
+  const fromLatest = loop.latest?.windowStart === e.windowStart;
+  const at = `${e.windowStart.slice(0, 16).replace('T', ' ')} UTC`;
+  return (
+    <span title={`Estimate of the window starting ${at}${fromLatest ? ' (the latest window)' : '; later windows had too little excitation for an estimate'}`}>
+      <span className="num">{e.value.toFixed(2)}</span>
+      {!fromLatest && <span className="block text-xs text-muted">{`at ${e.windowStart.slice(11, 16)}`}</span>}
+    </span>
+  );
 }
 
 function FleetTable({ initial }: { initial: FleetResponse }) {
@@ -64,7 +83,9 @@ function FleetTable({ initial }: { initial: FleetResponse }) {
             <thead>
               <tr>
                 <th>Loop</th>
-                <th className="n" title="kT / ideal, latest window">Effect.</th>
+                <th className="n" title={`Effectiveness: kT over the ideal one, newest estimate within ${EFFECTIVENESS_LOOKBACK_H} h of the latest window`}>
+                  Effect.
+                </th>
                 <th className="n" title="Electrode temperature, latest window">Electrode</th>
                 <th className="n" title="Momentum margin in use, latest window">Margin</th>
                 <th>State</th>
@@ -80,7 +101,9 @@ function FleetTable({ initial }: { initial: FleetResponse }) {
                       {l.pumpStations > 1 ? `, ${l.pumpStations} pumps` : ''}
                     </span>
                   </td>
-                  <td className="n">{l.latest?.effectiveness != null ? l.latest.effectiveness.toFixed(2) : '—'}</td>
+                  <td className="n py-1 leading-tight">
+                    <EffectCell loop={l} />
+                  </td>
                   <td className="n">
                     {l.latest?.electrodeTemp_c != null ? l.latest.electrodeTemp_c.toFixed(1) : '—'} <span className="unit">°C</span>
                   </td>
@@ -89,7 +112,7 @@ function FleetTable({ initial }: { initial: FleetResponse }) {
                   </td>
                   <td>
                     {l.liveTrips > 0 ? (
-                      <a href={`/trips?spacecraft=${sc.key}&state=open`} className="no-underline" title={`${l.liveTrips} live trip${l.liveTrips === 1 ? '' : 's'}`}>
+                      <a href={`/trips?spacecraft=${sc.key}&loop=${l.id}&state=open`} className="no-underline" title={`${l.liveTrips} live trip${l.liveTrips === 1 ? '' : 's'}`}>
                         <StateBadge state={l.state} />
                       </a>
                     ) : (
@@ -105,7 +128,7 @@ function FleetTable({ initial }: { initial: FleetResponse }) {
             {sc.bodyTrips.length > 0 && (
               <>
                 {' · '}
-                <a href={`/trips?spacecraft=${sc.key}`} className="font-medium text-copper">
+                <a href={`/trips?spacecraft=${sc.key}&loop=none`} className="font-medium text-copper">
                   {sc.bodyTrips.reduce((n, t) => n + t.n, 0)} spacecraft-level trip(s)
                 </a>
               </>

@@ -1,8 +1,9 @@
-import { useMemo, useState } from 'react';
-import { QueryClientProvider, keepPreviousData, useQuery } from '@tanstack/react-query';
+import { useEffect, useMemo, useState } from 'react';
+import { QueryClientProvider, useQuery } from '@tanstack/react-query';
 import { createColumnHelper, flexRender, getCoreRowModel, useReactTable, type SortingState } from '@tanstack/react-table';
 import { getQueryClient } from '../../lib/query-client';
-import { tripsQuery, type TripFilters, type TripList } from './trips.queries';
+import { tripSearch, tripsQuery, type TripFilters, type TripList } from './trips.queries';
+import { parseUtcDateTime } from '../roster/roster.schema';
 import { LevelBadge, TripStateBadge } from '../../components/LevelBadge';
 import { formatUtc, formatValue } from '../../lib/format';
 import type { TripRow } from '../../lib/server/trips';
@@ -48,62 +49,168 @@ const columns = [
   }),
 ];
 
+/** An ISO instant as the time fields show it: "YYYY-MM-DD HH:MM" (seconds only when not zero). */
+function timeText(iso: string | undefined): string {
+  if (!iso) return '';
+  const t = formatUtc(iso);
+  return t.endsWith(':00') ? t.slice(0, 16) : t;
+}
+
+const SORTABLE: Record<string, string> = { onset_at: 'onset_at', level: 'level', state: 'state', kind: 'kind', spacecraft: 'spacecraft' };
+
+/** The from/to (UTC) fields: checked here, applied together. */
+function TimeFilter({ from, to, onApply }: { from?: string; to?: string; onApply: (from: string | undefined, to: string | undefined) => void }) {
+  const [text, setText] = useState({ from: timeText(from), to: timeText(to) });
+  const [errors, setErrors] = useState<{ from?: string; to?: string }>({});
+  useEffect(() => setText({ from: timeText(from), to: timeText(to) }), [from, to]);
+  const submit = (e: React.FormEvent) => {
+    e.preventDefault();
+    const f = text.from.trim() ? parseUtcDateTime(text.from) : null;
+    const t = text.to.trim() ? parseUtcDateTime(text.to) : null;
+    const next: { from?: string; to?: string } = {};
+    if (text.from.trim() && !f) next.from = 'Give a UTC date and time, e.g. 2026-12-01 08:00.';
+    if (text.to.trim() && !t) next.to = 'Give a UTC date and time, e.g. 2026-12-02 08:00.';
+    if (f && t && t.getTime() <= f.getTime()) next.to = 'To must be later than from.';
+    setErrors(next);
+    if (next.from || next.to) return;
+    onApply(f?.toISOString(), t?.toISOString());
+  };
+  return (
+    <form className="flex items-end gap-2" aria-label="Onset between" noValidate onSubmit={submit}>
+      <div className="text-xs">
+        <label className="label" htmlFor="trips-from">
+          Onset from (UTC)
+        </label>
+        <input
+          id="trips-from"
+          className="field num w-40"
+          placeholder="2026-12-01 08:00"
+          value={text.from}
+          aria-invalid={errors.from ? 'true' : undefined}
+          aria-describedby={errors.from ? 'trips-from-error' : undefined}
+          onChange={(e) => setText((x) => ({ ...x, from: e.target.value }))}
+        />
+        {errors.from && (
+          <p id="trips-from-error" className="error-text mt-1 w-40">
+            {errors.from}
+          </p>
+        )}
+      </div>
+      <div className="text-xs">
+        <label className="label" htmlFor="trips-to">
+          to (UTC)
+        </label>
+        <input
+          id="trips-to"
+          className="field num w-40"
+          placeholder="2026-12-02 08:00"
+          value={text.to}
+          aria-invalid={errors.to ? 'true' : undefined}
+          aria-describedby={errors.to ? 'trips-to-error' : undefined}
+          onChange={(e) => setText((x) => ({ ...x, to: e.target.value }))}
+        />
+        {errors.to && (
+          <p id="trips-to-error" className="error-text mt-1 w-40">
+            {errors.to}
+          </p>
+        )}
+      </div>
+      <button type="submit" className="btn">
+        Apply times
+      </button>
+    </form>
+  );
+}
+
 function TripsTable({ initial, initialFilters, spacecraftKeys, kinds }: Props) {
   const [filters, setFilters] = useState<TripFilters>(initialFilters);
-  const q = useQuery({ ...tripsQuery(filters), initialData: JSON.stringify(filters) === JSON.stringify(initialFilters) ? initial : undefined, placeholderData: keepPreviousData });
+  const q = useQuery({ ...tripsQuery(filters), initialData: JSON.stringify(filters) === JSON.stringify(initialFilters) ? initial : undefined });
+  const apply = (next: TripFilters) => {
+    setFilters(next);
+    history.replaceState(null, '', `${location.pathname}${tripSearch(next, true)}`);
+  };
   const sorting: SortingState = useMemo(() => [{ id: filters.sort, desc: filters.order === 'desc' }], [filters.sort, filters.order]);
   const table = useReactTable({
     data: q.data?.trips ?? [],
     columns,
     getCoreRowModel: getCoreRowModel(),
     manualSorting: true,
+    // The server always sorts by some column, so a third click reverses instead of clearing.
+    enableSortingRemoval: false,
+    enableMultiSort: false,
     state: { sorting },
     onSortingChange: (updater) => {
       const next = typeof updater === 'function' ? updater(sorting) : updater;
       const s = next[0];
-      const map: Record<string, string> = { onset_at: 'onset_at', level: 'level', state: 'state', kind: 'kind', spacecraft: 'spacecraft' };
-      if (s && map[s.id]) setFilters((f) => ({ ...f, sort: map[s.id]!, order: s.desc ? 'desc' : 'asc', page: 1 }));
+      if (s && SORTABLE[s.id]) apply({ ...filters, sort: SORTABLE[s.id]!, order: s.desc ? 'desc' : 'asc', page: 1 });
     },
   });
-  const set = (k: keyof TripFilters) => (e: React.ChangeEvent<HTMLSelectElement>) => {
-    const next = { ...filters, [k]: e.target.value || undefined, page: 1 };
-    setFilters(next);
-    const p = new URLSearchParams();
-    for (const key of ['spacecraft', 'state', 'kind'] as const) if (next[key]) p.set(key, next[key]!);
-    history.replaceState(null, '', `${location.pathname}${p.size ? `?${p}` : ''}`);
+  const set = (k: 'spacecraft' | 'state' | 'kind') => (e: React.ChangeEvent<HTMLSelectElement>) => apply({ ...filters, [k]: e.target.value || undefined, page: 1 });
+  const setLoop = (e: React.ChangeEvent<HTMLSelectElement>) => {
+    const v = e.target.value;
+    apply({ ...filters, loop: v === '' ? undefined : v === 'none' ? 'none' : Number(v), page: 1 });
   };
+  const anyFilter = Boolean(filters.spacecraft || filters.state || filters.kind || filters.loop !== undefined || filters.from || filters.to);
   const pages = q.data ? Math.max(1, Math.ceil(q.data.total / q.data.pageSize)) : 1;
   return (
     <div className="space-y-3">
       <div className="flex flex-wrap items-end gap-3">
-        <label className="text-xs">
-          <span className="label">Spacecraft</span>
-          <select className="field w-36" value={filters.spacecraft ?? ''} onChange={set('spacecraft')}>
+        <div className="text-xs">
+          <label className="label" htmlFor="trips-spacecraft">
+            Spacecraft
+          </label>
+          <select id="trips-spacecraft" className="field w-36" value={filters.spacecraft ?? ''} onChange={set('spacecraft')}>
             <option value="">All</option>
             {spacecraftKeys.map((k) => (
               <option key={k}>{k}</option>
             ))}
           </select>
-        </label>
-        <label className="text-xs">
-          <span className="label">State</span>
-          <select className="field w-36" value={filters.state ?? ''} onChange={set('state')}>
+        </div>
+        <div className="text-xs">
+          <label className="label" htmlFor="trips-loop">
+            Loop
+          </label>
+          <select id="trips-loop" className="field w-40" value={filters.loop === undefined ? '' : String(filters.loop)} onChange={setLoop}>
+            <option value="">All</option>
+            {[0, 1, 2, 3].map((l) => (
+              <option key={l} value={l}>
+                L{l}
+              </option>
+            ))}
+            <option value="none">Whole spacecraft</option>
+          </select>
+        </div>
+        <div className="text-xs">
+          <label className="label" htmlFor="trips-state">
+            State
+          </label>
+          <select id="trips-state" className="field w-36" value={filters.state ?? ''} onChange={set('state')}>
             <option value="">All</option>
             <option>open</option>
             <option>acknowledged</option>
             <option>resolved</option>
           </select>
-        </label>
-        <label className="text-xs">
-          <span className="label">Kind</span>
-          <select className="field w-52" value={filters.kind ?? ''} onChange={set('kind')}>
+        </div>
+        <div className="text-xs">
+          <label className="label" htmlFor="trips-kind">
+            Kind
+          </label>
+          <select id="trips-kind" className="field w-52" value={filters.kind ?? ''} onChange={set('kind')}>
             <option value="">All</option>
             {kinds.map((k) => (
               <option key={k}>{k}</option>
             ))}
           </select>
-        </label>
-        <span className="ml-auto text-xs text-muted">{q.isFetching ? 'Refreshing…' : q.data ? `${q.data.total} trip${q.data.total === 1 ? '' : 's'}` : ''}</span>
+        </div>
+        <TimeFilter from={filters.from} to={filters.to} onApply={(from, to) => apply({ ...filters, from, to, page: 1 })} />
+        {anyFilter && (
+          <button type="button" className="btn" onClick={() => apply({ sort: filters.sort, order: filters.order, page: 1 })}>
+            Clear filters
+          </button>
+        )}
+        <span className="ml-auto text-xs text-muted" aria-live="polite">
+          {q.isFetching ? 'Refreshing…' : q.data ? `${q.data.total} trip${q.data.total === 1 ? '' : 's'}` : ''}
+        </span>
       </div>
       {q.isError && (
         <p role="alert" className="panel p-3 text-warning">
@@ -111,22 +218,30 @@ function TripsTable({ initial, initialFilters, spacecraftKeys, kinds }: Props) {
         </p>
       )}
       <div className="panel overflow-x-auto">
-        <table className="table-compact">
+        <table className="table-compact" aria-label="Trips">
           <thead>
             {table.getHeaderGroups().map((hg) => (
               <tr key={hg.id}>
-                {hg.headers.map((h) => (
-                  <th key={h.id} aria-sort={h.column.getIsSorted() ? (h.column.getIsSorted() === 'desc' ? 'descending' : 'ascending') : undefined}>
-                    {h.column.getCanSort() ? (
-                      <button type="button" className="uppercase tracking-wide hover:text-ink" onClick={h.column.getToggleSortingHandler()}>
-                        {flexRender(h.column.columnDef.header, h.getContext())}
-                        {h.column.getIsSorted() === 'asc' ? ' ↑' : h.column.getIsSorted() === 'desc' ? ' ↓' : ''}
-                      </button>
-                    ) : (
-                      flexRender(h.column.columnDef.header, h.getContext())
-                    )}
-                  </th>
-                ))}
+                {hg.headers.map((h) => {
+                  const dir = h.column.getIsSorted();
+                  return (
+                    <th key={h.id} aria-sort={h.column.getCanSort() ? (dir === 'desc' ? 'descending' : dir === 'asc' ? 'ascending' : 'none') : undefined}>
+                      {h.column.getCanSort() ? (
+                        <button
+                          type="button"
+                          className={`uppercase tracking-wide hover:text-ink ${dir ? 'text-ink' : ''}`}
+                          title={dir ? `Sorted ${dir === 'desc' ? 'descending' : 'ascending'}; click to reverse` : 'Click to sort'}
+                          onClick={h.column.getToggleSortingHandler()}
+                        >
+                          {flexRender(h.column.columnDef.header, h.getContext())}
+                          <span aria-hidden="true">{dir === 'asc' ? ' ↑' : dir === 'desc' ? ' ↓' : ' ↕'}</span>
+                        </button>
+                      ) : (
+                        flexRender(h.column.columnDef.header, h.getContext())
+                      )}
+                    </th>
+                  );
+                })}
               </tr>
             ))}
           </thead>
@@ -141,17 +256,21 @@ function TripsTable({ initial, initialFilters, spacecraftKeys, kinds }: Props) {
           </tbody>
         </table>
         {q.data && q.data.trips.length === 0 && (
-          <p className="p-4 text-muted">No trips match. Trips appear here when a limit of the active limit set is crossed; widen the filters or check the Limit bench.</p>
+          <p className="p-4 text-muted">
+            {anyFilter
+              ? 'No trips match these filters. Widen the time span or clear a filter.'
+              : 'No trips yet. Trips appear here when a limit of the active limit set is crossed; the Limit bench shows the limits in force.'}
+          </p>
         )}
       </div>
       <div className="flex items-center gap-2 text-xs">
-        <button className="btn" disabled={filters.page <= 1} onClick={() => setFilters((f) => ({ ...f, page: f.page - 1 }))}>
+        <button className="btn" disabled={filters.page <= 1} onClick={() => apply({ ...filters, page: filters.page - 1 })}>
           Previous
         </button>
         <span className="num text-muted">
           page {filters.page} of {pages}
         </span>
-        <button className="btn" disabled={filters.page >= pages} onClick={() => setFilters((f) => ({ ...f, page: f.page + 1 }))}>
+        <button className="btn" disabled={!q.data?.nextPage} onClick={() => apply({ ...filters, page: filters.page + 1 })}>
           Next
         </button>
       </div>

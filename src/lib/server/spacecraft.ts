@@ -3,6 +3,7 @@ import type { Database } from './db/schema';
 import { spacecraftSheetSchema, type SpacecraftSheet } from '../spacecraft-sheet.schema';
 import { insertAuditEntry } from './audit';
 import { EPOCH_2000_UNIX_S } from '../telemetry/types';
+import { EFFECTIVENESS_LOOKBACK_H } from '../../features/fleet/lookback';
 
 type Db = Kysely<Database> | Transaction<Database>;
 
@@ -13,6 +14,12 @@ export interface FleetLoop {
   state: 'nominal' | 'caution' | 'warning' | 'stale';
   /** Latest analysed window of the loop, if any. */
   latest: { windowStart: string; effectiveness: number | null; electrodeTemp_c: number | null; marginInUse_pct: number | null } | null;
+  /**
+   * The newest effectiveness estimate (kT over the ideal one) within EFFECTIVENESS_LOOKBACK_H hours
+   * before the latest window, with that window's start; null when there is none. Windows with too
+   * little current excitation carry no estimate, so the latest window alone is often blank.
+   */
+  effectiveness: { value: number; windowStart: string } | null;
   liveTrips: number;
   shape: SpacecraftSheet['loops'][number]['shape'];
   axis: [number, number, number];
@@ -77,9 +84,15 @@ export async function listFleet(db: Db, now = new Date()): Promise<FleetSpacecra
     db.selectFrom('spacecraft_sheet').select(['spacecraft_id', 'effective_from', 'sheet']).execute(),
     sql<{ spacecraft_id: number; tt: number | null }>`
       SELECT spacecraft_id, max(last_time_tag) AS tt FROM ingest_batch WHERE received_at > ${new Date(now.getTime() - 7 * 86_400_000)} GROUP BY 1`.execute(db),
-    sql<{ spacecraft_id: number; loop_id: number; window_start: Date; effectiveness: number | null; electrode_temp_mean_c: number | null; margin_in_use_pct: number | null }>`
-      SELECT DISTINCT ON (spacecraft_id, loop_id) spacecraft_id, loop_id, window_start, effectiveness, electrode_temp_mean_c, margin_in_use_pct
-      FROM loop_window ORDER BY spacecraft_id, loop_id, window_start DESC`.execute(db),
+    sql<{ spacecraft_id: number; loop_id: number; window_start: Date; effectiveness: number | null; electrode_temp_mean_c: number | null; margin_in_use_pct: number | null; eff_value: number | null; eff_at: Date | null }>`
+      SELECT l.*, e.effectiveness AS eff_value, e.window_start AS eff_at
+      FROM (SELECT DISTINCT ON (spacecraft_id, loop_id) spacecraft_id, loop_id, window_start, effectiveness, electrode_temp_mean_c, margin_in_use_pct
+            FROM loop_window ORDER BY spacecraft_id, loop_id, window_start DESC) l
+      LEFT JOIN LATERAL (
+        SELECT w.window_start, w.effectiveness FROM loop_window w
+        WHERE w.spacecraft_id = l.spacecraft_id AND w.loop_id = l.loop_id AND w.effectiveness IS NOT NULL
+          AND w.window_start <= l.window_start AND w.window_start > l.window_start - make_interval(hours => ${EFFECTIVENESS_LOOKBACK_H})
+        ORDER BY w.window_start DESC LIMIT 1) e ON true`.execute(db),
     sql<{ spacecraft_id: number; loop_id: number | null; level: 'caution' | 'warning'; n: number }>`
       SELECT spacecraft_id, loop_id, level, count(*)::int AS n FROM trip WHERE state <> 'resolved' AND cleared_at IS NULL GROUP BY 1, 2, 3`.execute(db),
   ]);
@@ -105,6 +118,7 @@ export async function listFleet(db: Db, now = new Date()): Promise<FleetSpacecra
         state,
         liveTrips: lt.reduce((n, t) => n + t.n, 0),
         latest: w ? { windowStart: w.window_start.toISOString(), effectiveness: w.effectiveness, electrodeTemp_c: w.electrode_temp_mean_c, marginInUse_pct: w.margin_in_use_pct } : null,
+        effectiveness: w && w.eff_value !== null && w.eff_at !== null ? { value: w.eff_value, windowStart: w.eff_at.toISOString() } : null,
         shape: l.shape,
         axis: l.axis,
         ratedCurrent_A: l.ratedCurrent_A,

@@ -24,27 +24,41 @@ function baseQuery(db: Db) {
 /** A trip row as the API returns it, with the quantity's label and unit. */
 export type TripRow = Awaited<ReturnType<typeof listTrips>>['trips'][number];
 
-/** Filtered, sorted, paginated trips. */
+/**
+ * Filtered, sorted, paginated trips (from inclusive, to exclusive, on the onset). State sorts in
+ * its workflow order (open, acknowledged, resolved) and level by severity; ties newest first.
+ */
 export async function listTrips(db: Db, q: TripQuery) {
   let query = baseQuery(db);
   if (q.spacecraft) query = query.where('s.key', '=', q.spacecraft);
   if (q.state) query = query.where('t.state', '=', q.state);
   if (q.kind) query = query.where('t.kind', '=', q.kind);
-  if (q.loop !== undefined) query = query.where('t.loop_id', '=', q.loop);
+  if (q.loop === 'none') query = query.where('t.loop_id', 'is', null);
+  else if (q.loop !== undefined) query = query.where('t.loop_id', '=', q.loop);
   if (q.from) query = query.where('t.onset_at', '>=', new Date(q.from));
   if (q.to) query = query.where('t.onset_at', '<', new Date(q.to));
   const countRow = await query.clearSelect().select((eb) => eb.fn.countAll<number>().as('n')).executeTakeFirstOrThrow();
-  const sortCol = q.sort === 'spacecraft' ? 's.key' : (`t.${q.sort}` as const);
+  const total = Number(countRow.n);
+  const sortExpr =
+    q.sort === 'spacecraft'
+      ? sql`s.key`
+      : q.sort === 'state'
+        ? sql`CASE t.state WHEN 'open' THEN 0 WHEN 'acknowledged' THEN 1 ELSE 2 END`
+        : q.sort === 'level'
+          ? sql`CASE t.level WHEN 'caution' THEN 1 ELSE 2 END`
+          : sql.ref(`t.${q.sort}`);
   const rows = await query
-    .orderBy(sortCol, q.order)
+    .orderBy(sortExpr, q.order)
     .orderBy('t.id', 'desc')
     .limit(q.pageSize)
     .offset((q.page - 1) * q.pageSize)
     .execute();
   return {
-    total: countRow.n,
+    total,
     page: q.page,
     pageSize: q.pageSize,
+    /** The next page's number, or null on the last page. */
+    nextPage: q.page * q.pageSize < total ? q.page + 1 : null,
     trips: rows.map((r) => {
       const info = quantityInfo(r.quantity);
       return { ...r, quantityLabel: info?.label ?? r.quantity, unit: info?.unit ?? '', live: r.cleared_at === null };
