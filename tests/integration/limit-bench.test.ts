@@ -242,6 +242,11 @@ describe('Limit bench on a known fault (torque-constant loss on loop 0)', () => 
       expect(t.cleared_note).toMatch(new RegExp(`limit set v\\d+ retired and v${a.set.version} judges this quantity from`));
       expect(t.state).toBe('open');
     }
+    // Each closed trip is told to the on-call operators: a message of its own, or a line in the digest.
+    const closedIds = liveBefore.map((t) => t.id);
+    const mailed = await db.selectFrom('outbox').select('trip_id').where('trip_id', 'in', closedIds).where('message_key', 'like', 'trip:%:cleared:%').execute();
+    const digested = await db.selectFrom('mail_digest_item').select('trip_id').where('trip_id', 'in', closedIds).where('cleared_at', 'is not', null).execute();
+    for (const id of closedIds) expect(mailed.some((m) => m.trip_id === id) || digested.some((m) => m.trip_id === id), `trip ${id} closed at the handover without mail`).toBe(true);
     const seeded = await db.selectFrom('rule_cursor as c').innerJoin('limit_rule as r', 'r.id', 'c.rule_id').select(['r.quantity', 'c.loop_id']).where('r.limit_set_id', '=', d.id).execute();
     expect(seeded.some((c) => c.quantity === 'effectiveness' && c.loop_id === 0)).toBe(true);
     expect((await runAnalysisJob(db, pool, flown.sc, { nowMs: flown.endMs + 5_000 })).status).toBe('done');

@@ -2,7 +2,7 @@ import type { Kysely, Transaction } from 'kysely';
 import type { Database, LimitSetStatus } from './db/schema';
 import type { SessionUser } from './auth/roles';
 import { limitSetInputSchema, loopProblems, type LimitRuleInput, type LimitSetInput } from '../limits/limit-set.schema';
-import { DEFAULT_RULES } from '../limits/defaults';
+import { DEFAULT_RULES, defaultRulesFor } from '../limits/defaults';
 import { quantityInfo } from '../limits/quantities';
 import { findActiveLimitSet, findLimitSetById, findPreviousVersion, insertLimitSet, listLimitSets, lockLimitSetById, replaceLimitSetRules, ruleInputOf } from './limit-sets';
 import { findSheetInForce } from './spacecraft';
@@ -10,6 +10,7 @@ import { insertAuditEntry } from './audit';
 import { HttpError, parseWith } from './http';
 import { listBacktests, rulesDigest, type BacktestView } from './backtest';
 import { handOverLimits, type Handover } from './trip-engine';
+import { mailTripsClosedAtHandover } from './mail/trip-mail';
 
 type Db = Kysely<Database> | Transaction<Database>;
 
@@ -114,9 +115,10 @@ export async function createDraft(db: Kysely<Database>, spacecraft: { id: number
   return db.transaction().execute(async (trx) => {
     const source = copyOf !== undefined ? await findLimitSetById(trx, copyOf) : await findActiveLimitSet(trx, spacecraft.id);
     if (copyOf !== undefined && (!source || source.spacecraft_id !== spacecraft.id)) throw new HttpError('NOT_FOUND', `${spacecraft.key} has no limit set ${copyOf} to copy.`);
+    const inForce = source ? undefined : await findSheetInForce(trx, spacecraft.id, new Date());
     const input: LimitSetInput = source
       ? { name: source.name, notes: '', rules: source.rules.map(ruleInputOf) }
-      : { name: 'Default limits', notes: 'Started from the demo defaults (the spacecraft had no active set).', rules: DEFAULT_RULES };
+      : { name: 'Default limits', notes: 'Started from the demo defaults (the spacecraft had no active set).', rules: inForce ? defaultRulesFor(inForce.sheet) : DEFAULT_RULES };
     const created = await insertLimitSet(trx, spacecraft.id, input, actor.id, 'draft');
     await insertAuditEntry(trx, {
       actorId: actor.id,
@@ -196,6 +198,7 @@ export async function approveSet(db: Kysely<Database>, id: number, actor: Sessio
     }
     await trx.updateTable('limit_set').set({ status: 'active', activated_at: now }).where('id', '=', id).execute();
     const handover = old ? await handOverLimits(trx, set.spacecraft_id, old, { id, version: set.version }, await loopIdsOf(trx, set.spacecraft_id, now), now) : null;
+    if (handover && handover.closed.length > 0) await mailTripsClosedAtHandover(trx, handover.closed, now);
     await review(trx, id, 'approved', actor.id, comment);
     await insertAuditEntry(trx, {
       actorId: actor.id, action: 'limit-set.approve', targetType: 'limit_set', targetId: id,
