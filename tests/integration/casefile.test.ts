@@ -340,7 +340,9 @@ describe('the numbers the report and readings quote come from the full rows', ()
     const ev = (await (await as.analyst!.get(`/api/trips/${tripId}/evidence`)).json()) as EvidenceResponse;
     expect(ev.readings.scatter).toContain('τ = kT·I through the origin');
     expect(ev.readings.scatter).toContain('v|v|');
-    for (const k of ['compensated_effectiveness', 'magnet_temp_mean_c', 'resistance_ohm', 'thermal_residual_k']) expect(ev.series[k]!.t.length, k).toBeGreaterThan(10);
+    // The heating chart's resistance and electrode temperature always have data; the thermal-model
+    // residual only where the span's fit succeeds, which a short fixture does not promise.
+    for (const k of ['compensated_effectiveness', 'magnet_temp_mean_c', 'resistance_ohm', 'electrode_temp_mean_c']) expect(ev.series[k]!.t.length, k).toBeGreaterThan(10);
   });
 
   it('shows the handling caution where hardware handling comes up: the report, the Casefile and the sheets', async () => {
