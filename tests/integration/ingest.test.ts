@@ -6,6 +6,8 @@ import { attitudeRecord, concatBytes, loopRecord, loopStream } from './packets';
 import { encodePacket, encodeIdlePacket } from '../../src/lib/telemetry';
 import { createIngestToken } from '../../src/lib/server/ingest-tokens';
 import { findSpacecraftByKey } from '../../src/lib/server/spacecraft';
+import { createPool } from '../../src/lib/server/db';
+import { ensureDayPartitions } from '../../src/lib/server/telemetry-store';
 
 let token = '';
 let spacecraftId = 0;
@@ -159,6 +161,55 @@ describe('POST /api/ingest', () => {
     const res = await fetch(`${BASE_URL}/api/ingest`, { method: 'POST', headers: { authorization: `Bearer ${token}`, 'content-type': 'application/json' }, body: '{}' });
     expect(res.status).toBe(400);
     expect((await res.json()).error.fields['content-type']).toBeDefined();
+  });
+
+  it('many concurrent requests whose packets fall on days without partitions all succeed and store every packet', async () => {
+    // Six days of 2026-08 that nothing else writes to: each request makes the server create
+    // their partitions, 24 requests at once.
+    const days = Array.from({ length: 6 }, (_, d) => Date.UTC(2026, 7, 10 + d));
+    const bodies = Array.from({ length: 24 }, (_, i) =>
+      concatBytes(days.flatMap((day, d) => [loopStream(20, day + i * 60_000, (i * 200 + d * 20) % 16384), encodePacket(attitudeRecord(i, day + i * 60_000 + 5))])),
+    );
+    const answers = await Promise.all(bodies.map((b) => post(b)));
+    expect(answers.map((a) => a.status)).toEqual(bodies.map(() => 200));
+    expect(answers.map((a) => a.body.accepted)).toEqual(bodies.map(() => 6 * 21));
+    expect(answers.flatMap((a) => a.body.rejected)).toEqual([]);
+    const r = await sql<{ n: number }>`SELECT count(*)::int AS n FROM loop_sample WHERE spacecraft_id = ${spacecraftId} AND t >= ${new Date(days[0]!)} AND t < ${new Date(days[5]! + 86_400_000)}`.execute(db);
+    expect(r.rows[0]!.n).toBe(24 * 6 * 20);
+    const a = await sql<{ n: number }>`SELECT count(*)::int AS n FROM attitude_sample WHERE spacecraft_id = ${spacecraftId} AND t >= ${new Date(days[0]!)} AND t < ${new Date(days[5]! + 86_400_000)}`.execute(db);
+    expect(a.rows[0]!.n).toBe(24 * 6);
+  });
+
+  it('partitions created by many sessions at once for the same new days: none fails, all exist', async () => {
+    // As several server processes would: each its own pool, all starting on the same names at once.
+    const pools = Array.from({ length: 12 }, () => createPool(process.env.DATABASE_URL!, 1));
+    try {
+      const days = Array.from({ length: 5 }, (_, d) => Math.floor(Date.UTC(2026, 6, 1 + d) / 86_400_000));
+      await Promise.all(pools.map((p) => p.query('SELECT 1'))); // connected before the race starts
+      const outcomes = await Promise.allSettled(pools.map((p) => ensureDayPartitions(p, days)));
+      expect(outcomes.filter((o) => o.status === 'rejected').map((o) => String((o as PromiseRejectedResult).reason))).toEqual([]);
+      const r = await sql<{ n: number }>`SELECT count(*)::int AS n FROM pg_class WHERE relname ~ '_p2026070[1-5]$'`.execute(db);
+      expect(r.rows[0]!.n).toBe(5 * 4);
+    } finally {
+      await Promise.all(pools.map((p) => p.end()));
+    }
+  });
+
+  it('refuses a time tag more than a day ahead of arrival, keeps its bytes, and makes no partition for it', async () => {
+    const now = Date.now();
+    const past = encodePacket(loopRecord(100, hour(48))); // clear of the other tests' hours
+    const soon = encodePacket(loopRecord(101, now + 12 * 3_600_000)); // a clock 12 h fast: kept
+    const far = encodePacket(loopRecord(102, now + 40 * 86_400_000));
+    const r = await post(concatBytes([past, far, soon]));
+    expect(r.status).toBe(200);
+    expect(r.body).toMatchObject({ accepted: 2, duplicates: 0, rejected: [{ offset: 48, reason: 'time tag in future' }] });
+    const q = await db.selectFrom('quarantine_packet').select(['reason', 'raw', 'offset_bytes']).where('spacecraft_id', '=', spacecraftId).orderBy('id', 'desc').limit(1).executeTakeFirstOrThrow();
+    expect(q.reason).toBe('time tag in future');
+    expect(Number(q.offset_bytes)).toBe(48);
+    expect(Buffer.compare(q.raw, Buffer.from(far))).toBe(0);
+    const day = new Date(now + 40 * 86_400_000).toISOString().slice(0, 10).replaceAll('-', '');
+    const part = await sql<{ t: string | null }>`SELECT to_regclass(${`loop_sample_p${day}`})::text AS t`.execute(db);
+    expect(part.rows[0]!.t).toBeNull();
   });
 
   it('a server killed mid-request stores nothing of it; the resend stores all', async () => {

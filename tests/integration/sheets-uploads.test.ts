@@ -1,9 +1,13 @@
 import fs from 'node:fs';
+import path from 'node:path';
+import { sql } from 'kysely';
 import { describe, expect, it } from 'vitest';
 import { BASE_URL, clientAs, db } from './support';
-import { concatBytes, loopRecord, loopStream } from './packets';
-import { encodePacket } from '../../src/lib/telemetry';
+import { attitudeRecord, concatBytes, loopRecord, loopStream } from './packets';
+import { crc16, encodePacket } from '../../src/lib/telemetry';
 import { findSpacecraftByKey } from '../../src/lib/server/spacecraft';
+import { pool } from '../../src/lib/server/db';
+import { UPLOAD_BATCH_PACKETS, UPLOAD_REPORT_LIST_MAX, ingestStream } from '../../src/lib/server/ingest';
 
 const mr1 = () => JSON.parse(fs.readFileSync('ingest/fleet/MR-1.json', 'utf8'));
 
@@ -60,6 +64,42 @@ describe('spacecraft sheets', () => {
   });
 });
 
+describe('POST /api/spacecraft', () => {
+  it('creates a spacecraft from its first sheet, lists it, and answers a second create of the key 409 naming spacecraft.key', async () => {
+    const engineer = await clientAs('engineer');
+    const sheet = mr1();
+    sheet.spacecraft = { key: 'TS-NEW-1', name: 'Tailrace Test Article' };
+    const res = await engineer.post('/api/spacecraft', sheet);
+    expect(res.status).toBe(201);
+    expect(await res.json()).toEqual({ spacecraft: { key: 'TS-NEW-1' } });
+    const list = await (await (await clientAs('operator')).get('/api/spacecraft')).json();
+    const listed = list.spacecraft.find((c: { key: string }) => c.key === 'TS-NEW-1');
+    expect(listed).toMatchObject({ name: 'Tailrace Test Article', sheetEffectiveFrom: '2026-11-01T00:00:00.000Z' });
+    expect(listed.loops).toHaveLength(1);
+    const again = await engineer.post('/api/spacecraft', { ...sheet, spacecraft: { key: 'TS-NEW-1', name: 'Another Name' } });
+    expect(again.status).toBe(409);
+    const { error } = await again.json();
+    expect(error.code).toBe('CONFLICT');
+    expect(error.fields['spacecraft.key'][0]).toMatch(/TS-NEW-1/);
+    // Nothing of the refused create was stored.
+    const sc = await findSpacecraftByKey(db, 'TS-NEW-1');
+    expect(sc!.name).toBe('Tailrace Test Article');
+    expect(await db.selectFrom('spacecraft_sheet').select('id').where('spacecraft_id', '=', sc!.id).execute()).toHaveLength(1);
+  });
+
+  it('names a misspelt key by its JSON path instead of quietly using a default', async () => {
+    const engineer = await clientAs('engineer');
+    const sheet = mr1();
+    sheet.spacecraft = { key: 'TS-NEW-2', name: 'Misspelt' };
+    sheet.loops[0].fluids = sheet.loops[0].fluid;
+    delete sheet.loops[0].fluid;
+    const res = await engineer.post('/api/spacecraft', sheet);
+    expect(res.status).toBe(400);
+    expect((await res.json()).error.fields['loops[0].fluids'][0]).toMatch(/"fluids" is not a field/);
+    expect(await findSpacecraftByKey(db, 'TS-NEW-2')).toBeUndefined();
+  });
+});
+
 describe('POST /api/uploads/packets', () => {
   it('streams a pass file, keeps it on disk, reports like ingest, and re-ingests as duplicates', async () => {
     const t0 = Date.UTC(2026, 9, 20, 3);
@@ -94,5 +134,100 @@ describe('POST /api/uploads/packets', () => {
     const res = await fetch(`${BASE_URL}/api/uploads/packets?spacecraft=MR-1`, { method: 'POST', headers: { cookie: operator.cookie, origin: BASE_URL }, body: form });
     expect(res.status).toBe(400);
     expect((await res.json()).error.fields.file).toBeDefined();
+  });
+
+  it('stores a mostly rejected file in bounded transactions, quarantines every reject, and lists only the first in its answer', async () => {
+    const t0 = Date.UTC(2026, 9, 22, 5);
+    const nBad = 250_000;
+    const bad = loopStream(nBad, t0, 0);
+    for (let i = 0; i < nBad; i++) bad[i * 48 + 47] = bad[i * 48 + 47]! ^ 0x5a; // every CRC wrong
+    const good = loopStream(10, t0 + nBad * 100 + 1000, nBad % 16384);
+    const file = concatBytes([bad, good]);
+    const operator = await clientAs('operator');
+    const form = new FormData();
+    form.append('file', new Blob([Buffer.from(file)]), 'mostly-bad.bin');
+    const res = await fetch(`${BASE_URL}/api/uploads/packets?spacecraft=MR-1`, { method: 'POST', headers: { cookie: operator.cookie, origin: BASE_URL }, body: form });
+    expect(res.status).toBe(201);
+    const report = await res.json();
+    expect(report).toMatchObject({ accepted: 10, duplicates: 0, bytes: file.byteLength, rejectedCount: nBad, rejectedOmitted: nBad - UPLOAD_REPORT_LIST_MAX });
+    expect(report.rejected).toHaveLength(UPLOAD_REPORT_LIST_MAX);
+    expect(report.rejected[0]).toEqual({ offset: 0, reason: 'crc mismatch' });
+    expect(report.rejected[UPLOAD_REPORT_LIST_MAX - 1]).toEqual({ offset: (UPLOAD_REPORT_LIST_MAX - 1) * 48, reason: 'crc mismatch' });
+    // Each transaction held at most UPLOAD_BATCH_PACKETS packets (one chunk's worth over at most).
+    const batches = await db.selectFrom('ingest_batch').select(['id', 'rejected', 'accepted']).where('upload_id', '=', report.uploadId).orderBy('id').execute();
+    expect(batches.length).toBeGreaterThanOrEqual(Math.ceil(nBad / (UPLOAD_BATCH_PACKETS + 30_000)));
+    expect(batches.reduce((n, b) => n + b.rejected, 0)).toBe(nBad);
+    for (const b of batches) expect(b.rejected + b.accepted).toBeLessThan(UPLOAD_BATCH_PACKETS + 30_000);
+    const q = await sql<{ n: number }>`SELECT count(*)::int AS n FROM quarantine_packet WHERE batch_id = ANY(${batches.map((b) => b.id)})`.execute(db);
+    expect(q.rows[0]!.n).toBe(nBad);
+    const up = await db.selectFrom('packet_upload').select(['status', 'report']).where('id', '=', report.uploadId).executeTakeFirstOrThrow();
+    expect(up.status).toBe('done');
+    expect(up.report).toMatchObject({ rejectedCount: nBad, accepted: 10 });
+  }, 180_000);
+
+  it("quarantines an upload's packets with time tags far ahead with their exact bytes, however the file is chunked", async () => {
+    const sc = await findSpacecraftByKey(db, 'MR-1');
+    const up = await db.insertInto('packet_upload').values({ spacecraft_id: sc!.id, file_name: 'chunks.bin', stored_path: '' }).returning('id').executeTakeFirstOrThrow();
+    const t0 = Date.UTC(2026, 9, 23, 1);
+    const far = Date.now() + 100 * 86_400_000;
+    const packets = [
+      encodePacket(loopRecord(1, t0)),
+      encodePacket(loopRecord(2, far)),
+      encodePacket(attitudeRecord(3, far + 100)),
+      encodePacket(loopRecord(3, t0 + 200)),
+      encodePacket(attitudeRecord(4, t0 + 300)),
+      encodePacket(loopRecord(4, far + 300)),
+    ];
+    // Hand-pick a spare octet that the decoder does not check: the stored bytes must be the ones sent.
+    packets[2]![13] = 0x77;
+    const crcAt = packets[2]!.length - 2;
+    const c = crc16(packets[2]!, 0, crcAt);
+    packets[2]![crcAt] = c >> 8;
+    packets[2]![crcAt + 1] = c & 0xff;
+    const file = concatBytes(packets);
+    for (const size of [7, 50, 4096]) {
+      async function* chunks() {
+        for (let o = 0; o < file.length; o += size) yield file.slice(o, o + size);
+      }
+      const r = await ingestStream(pool, db, chunks(), { spacecraftId: sc!.id, stationId: null, uploadId: up.id });
+      const offsets = packets.map((_, i) => packets.slice(0, i).reduce((n, p) => n + p.length, 0));
+      expect(r.rejected).toEqual([1, 2, 5].map((i) => ({ offset: offsets[i], reason: 'time tag in future' })));
+      const batchIds = (await db.selectFrom('ingest_batch').select('id').where('upload_id', '=', up.id).orderBy('id', 'desc').limit(1).execute()).map((b) => b.id);
+      const q = await db.selectFrom('quarantine_packet').select(['offset_bytes', 'raw']).where('batch_id', 'in', batchIds).orderBy('offset_bytes').execute();
+      expect(q.map((x) => Number(x.offset_bytes))).toEqual([1, 2, 5].map((i) => offsets[i]));
+      for (const [k, i] of [1, 2, 5].entries()) expect(Buffer.compare(q[k]!.raw, Buffer.from(packets[i]!))).toBe(0);
+    }
+  });
+
+  it('answers a disk error while keeping the file with a clear 500, removes the partial file, and keeps serving', async () => {
+    const dir = process.env.UPLOAD_DIR!;
+    fs.mkdirSync(dir, { recursive: true });
+    // The next upload ids' files are made links to /dev/full, whose every write fails ENOSPC.
+    const seq = await sql<{ last_value: number; is_called: boolean }>`SELECT last_value::int, is_called FROM packet_upload_id_seq`.execute(db);
+    const next = seq.rows[0]!.is_called ? seq.rows[0]!.last_value + 1 : seq.rows[0]!.last_value;
+    const links = Array.from({ length: 5 }, (_, i) => path.join(dir, `${next + i}-full.bin`));
+    for (const l of links) {
+      fs.rmSync(l, { force: true });
+      fs.symlinkSync('/dev/full', l);
+    }
+    try {
+      const operator = await clientAs('operator');
+      const form = new FormData();
+      form.append('file', new Blob([Buffer.from(loopStream(20_000, Date.UTC(2026, 9, 24, 2)))]), 'full.bin');
+      const res = await fetch(`${BASE_URL}/api/uploads/packets?spacecraft=MR-1`, { method: 'POST', headers: { cookie: operator.cookie, origin: BASE_URL }, body: form });
+      expect(res.status).toBe(500);
+      const { error } = await res.json();
+      expect(error.message).toMatch(/could not be written to the server's disk \(ENOSPC/);
+      expect(error.message).toMatch(/partial file was removed/);
+      const row = await db.selectFrom('packet_upload').select(['id', 'status', 'stored_path']).orderBy('id', 'desc').limit(1).executeTakeFirstOrThrow();
+      expect(row).toMatchObject({ status: 'failed', stored_path: '' });
+      const used = path.join(dir, `${row.id}-full.bin`);
+      expect(links).toContain(used);
+      expect(() => fs.lstatSync(used)).toThrow(/ENOENT/);
+      // The server is still up.
+      expect((await operator.get('/api/spacecraft')).status).toBe(200);
+    } finally {
+      for (const l of links) fs.rmSync(l, { force: true });
+    }
   });
 });

@@ -13,9 +13,9 @@ export function figuresOf(r: UploadReport): ReportFigures {
     accepted: r.accepted,
     duplicates: r.duplicates,
     idle: r.idle,
-    rejectedCount: r.rejected.length,
+    rejectedCount: r.rejectedCount,
     rejected: r.rejected,
-    gapCount: r.gaps.length,
+    gapCount: r.gapCount,
     gaps: r.gaps,
     sha256: r.sha256,
   };

@@ -5,13 +5,19 @@ import type { Kysely } from 'kysely';
 import type { Database } from './db/schema';
 import { HttpError } from './http';
 import { PacketBatch, reserveBatchId, storeBatch, type Gap, type StoreResult } from './telemetry-store';
-import { PacketStreamDecoder, decodeBuffer, type RejectReason } from '../telemetry';
+import { MAX_PACKET_LENGTH, PacketStreamDecoder, decodeBuffer, type RejectReason } from '../telemetry';
 import { spacecraftSheetSchema } from '../spacecraft-sheet.schema';
 
 /** The largest body one ingest request may carry. */
 export const MAX_INGEST_BYTES = 8 * 1024 * 1024;
-/** Uploads are stored in transactions of about this many packets. */
-const UPLOAD_BATCH_PACKETS = 100_000;
+/**
+ * Uploads are stored in transactions of about this many packets (valid, rejected and idle)…
+ */
+export const UPLOAD_BATCH_PACKETS = 100_000;
+/** …or of about this many octets held (the file's octets plus the raw copies of rejects), whichever comes first. */
+export const UPLOAD_BATCH_BYTES = 32 * 1024 * 1024;
+/** An upload's answer lists at most this many rejects and gaps; the counts stay exact and quarantine keeps every reject. */
+export const UPLOAD_REPORT_LIST_MAX = 1000;
 
 /** The contract's ingest response. */
 export interface IngestReport {
@@ -94,22 +100,70 @@ export async function ingestBody(
   if (body.byteLength === 0) throw new HttpError('BAD_REQUEST', 'The body is empty: send a concatenation of space packets.');
   const batch = new PacketBatch(meta.spacecraftId, await reserveBatchId(pool), nowMs);
   batch.bytes = body.byteLength;
+  batch.rawSource = (offset, length) => body.subarray(offset, offset + length);
   decodeBuffer(body, { loopIds: await loopIdsOf(db, meta.spacecraftId, nowMs) }, batch);
   const stored = await storeBatch(pool, batch, { ...meta, source: 'post' });
   // Nothing in the body was a readable packet: the whole body is unreadable.
   return { report: report(stored), unreadable: batch.valid === 0 && batch.idleCount === 0 };
 }
 
-function mergeReports(into: IngestReport, r: StoreResult): void {
+/** An upload's report: exact counts, and the first UPLOAD_REPORT_LIST_MAX rejects and gaps. */
+export interface StreamReport extends IngestReport {
+  bytes: number;
+  idle: number;
+  /** Rejected packets in all; quarantine holds every one of them. */
+  rejectedCount: number;
+  /** Rejects counted but not listed in `rejected`. */
+  rejectedOmitted: number;
+  gapCount: number;
+  gapsOmitted: number;
+}
+
+function mergeReports(into: StreamReport, r: StoreResult): void {
   into.accepted += r.accepted;
   into.duplicates += r.duplicates;
-  into.rejected.push(...r.rejected);
-  into.gaps.push(...r.gaps);
+  into.rejectedCount += r.rejected.length;
+  into.gapCount += r.gaps.length;
+  into.rejected.push(...r.rejected.slice(0, Math.max(0, UPLOAD_REPORT_LIST_MAX - into.rejected.length)));
+  into.gaps.push(...r.gaps.slice(0, Math.max(0, UPLOAD_REPORT_LIST_MAX - into.gaps.length)));
+  into.rejectedOmitted = into.rejectedCount - into.rejected.length;
+  into.gapsOmitted = into.gapCount - into.gaps.length;
+}
+
+/**
+ * The chunks of a stream that a packet reported by offset and length may lie in: the current
+ * chunk and enough earlier ones to cover MAX_PACKET_LENGTH octets before it (a packet that the
+ * current chunk completes began there). Chunks are kept by reference, not copied; a stream's
+ * consumer owns the chunks it is handed.
+ */
+class StreamWindow {
+  private readonly chunks: { start: number; bytes: Uint8Array }[] = [];
+
+  /** Make `chunk`, starting at absolute offset `start`, the current chunk. */
+  next(chunk: Uint8Array, start: number): void {
+    this.chunks.push({ start, bytes: chunk });
+    // Drop the oldest while the ones after it still cover MAX_PACKET_LENGTH before the current chunk.
+    while (this.chunks.length > 2 && start - this.chunks[1]!.start >= MAX_PACKET_LENGTH) this.chunks.shift();
+  }
+
+  read(offset: number, length: number): Uint8Array {
+    const end = offset + length;
+    const last = this.chunks[this.chunks.length - 1];
+    if (last && offset >= last.start) return last.bytes.subarray(offset - last.start, end - last.start);
+    const out = new Uint8Array(length);
+    for (const c of this.chunks) {
+      const from = Math.max(offset, c.start);
+      const to = Math.min(end, c.start + c.bytes.byteLength);
+      if (from < to) out.set(c.bytes.subarray(from - c.start, to - c.start), from - offset);
+    }
+    return out;
+  }
 }
 
 /**
  * Ingest a stream of packets of any length (an uploaded pass file): decoded as it arrives,
- * stored in transactions of ~100 000 packets, never held whole in memory.
+ * stored in transactions of at most ~100 000 packets or ~32 MiB, never held whole in memory,
+ * however much of it is rejected.
  */
 export async function ingestStream(
   pool: pg.Pool,
@@ -117,34 +171,41 @@ export async function ingestStream(
   source: AsyncIterable<Uint8Array>,
   meta: { spacecraftId: number; stationId: number | null; uploadId: number },
   onProgress?: (bytes: number) => void,
-): Promise<IngestReport & { bytes: number; idle: number }> {
-  const total: IngestReport = { accepted: 0, duplicates: 0, rejected: [], gaps: [] };
+): Promise<StreamReport> {
+  const total: StreamReport = { accepted: 0, duplicates: 0, rejected: [], gaps: [], bytes: 0, idle: 0, rejectedCount: 0, rejectedOmitted: 0, gapCount: 0, gapsOmitted: 0 };
   const ctx = { loopIds: await loopIdsOf(db, meta.spacecraftId) };
-  let idle = 0;
-  let batch = new PacketBatch(meta.spacecraftId, await reserveBatchId(pool));
+  const recent = new StreamWindow();
+  const newBatch = async () => {
+    const b = new PacketBatch(meta.spacecraftId, await reserveBatchId(pool));
+    b.rawSource = (offset, length) => recent.read(offset, length);
+    return b;
+  };
+  let batch = await newBatch();
   // One visitor forwards into whichever batch is current.
   const decoder = new PacketStreamDecoder(ctx, {
-    record: (rec) => batch.record(rec),
+    record: (rec, offset, length) => batch.record(rec, offset, length),
     reject: (offset, reason, raw) => batch.reject(offset, reason, raw),
     idle: () => batch.idle(),
   });
   let bytes = 0;
   const flush = async () => {
     if (batch.packets === 0) return;
-    idle += batch.idleCount;
+    total.idle += batch.idleCount;
     mergeReports(total, await storeBatch(pool, batch, { ...meta, source: 'upload' }));
-    batch = new PacketBatch(meta.spacecraftId, await reserveBatchId(pool));
+    batch = await newBatch();
   };
   for await (const chunk of source) {
+    recent.next(chunk, bytes);
     decoder.push(chunk);
     bytes += chunk.byteLength;
     batch.bytes += chunk.byteLength;
     onProgress?.(bytes);
-    if (batch.valid >= UPLOAD_BATCH_PACKETS) await flush();
+    if (batch.packets >= UPLOAD_BATCH_PACKETS || batch.bytes + batch.rejectedBytes >= UPLOAD_BATCH_BYTES) await flush();
   }
   decoder.end();
   await flush();
-  return { ...total, bytes, idle };
+  total.bytes = bytes;
+  return total;
 }
 
 /** Where uploaded pass files are kept. */

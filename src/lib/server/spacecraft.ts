@@ -2,6 +2,7 @@ import { sql, type Kysely, type Transaction } from 'kysely';
 import type { Database } from './db/schema';
 import { spacecraftSheetSchema, type SpacecraftSheet } from '../spacecraft-sheet.schema';
 import { insertAuditEntry } from './audit';
+import { HttpError } from './http';
 import { EPOCH_2000_UNIX_S } from '../telemetry/types';
 import { EFFECTIVENESS_LOOKBACK_H } from '../../features/fleet/lookback';
 
@@ -129,13 +130,24 @@ export async function listFleet(db: Db, now = new Date()): Promise<FleetSpacecra
   });
 }
 
-/** Create a spacecraft from its first sheet (or add the sheet when the key exists and upsert is set). */
+/** Create a spacecraft from its first sheet; 409 naming `spacecraft.key` when the key is taken. */
 export async function insertSpacecraftWithSheet(db: Db, sheet: SpacecraftSheet, actorId: string | null): Promise<{ id: number; key: string }> {
   const sc = await db
     .insertInto('spacecraft')
     .values({ key: sheet.spacecraft.key, name: sheet.spacecraft.name })
     .returning(['id', 'key'])
-    .executeTakeFirstOrThrow();
+    .executeTakeFirstOrThrow()
+    .catch((err: unknown) => {
+      // The unique key decides (a check before the insert would race a concurrent create).
+      const e = err as { code?: string; constraint?: string };
+      if (e.code === '23505' && e.constraint === 'spacecraft_key_key') {
+        const key = sheet.spacecraft.key;
+        throw new HttpError('CONFLICT', `A spacecraft with the key ${key} already exists; a new sheet for it goes to /api/spacecraft/${key}/sheets.`, {
+          'spacecraft.key': [`${key} is taken by an existing spacecraft`],
+        });
+      }
+      throw err;
+    });
   await insertSheet(db, sc.id, sheet, actorId);
   await insertAuditEntry(db, { actorId, action: 'spacecraft.create', targetType: 'spacecraft', targetId: sc.key, detail: { name: sheet.spacecraft.name } });
   return sc;

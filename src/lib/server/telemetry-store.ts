@@ -6,6 +6,7 @@ import { BinaryCopyWriter } from './copy-binary';
 import {
   APID,
   EPOCH_2000_UNIX_S,
+  encodePacket,
   type PacketVisitor,
   type RejectReason,
   type TelemetryRecord,
@@ -14,6 +15,13 @@ import {
 const DAY_MS = 86_400_000;
 /** A packet counts as real time when it arrives within this long of its time tag. */
 export const REALTIME_WINDOW_MS = 60_000;
+/**
+ * A time tag is the time of a sample, so it cannot lie after the packet arrives; one more than
+ * this far after the ground clock is refused 'time tag in future' (and quarantined). The margin
+ * allows for an on-board clock that runs ahead of the ground. It also bounds how far ahead of
+ * today any request can make the store create daily partitions.
+ */
+export const FUTURE_TOLERANCE_MS = 86_400_000;
 
 /** The tables behind each APID, with their value columns in COPY order. */
 export const PACKET_TABLES = {
@@ -71,6 +79,8 @@ export class PacketBatch implements PacketVisitor {
   minTimeTag = Infinity;
   maxTimeTag = -Infinity;
   bytes = 0;
+  /** Octets of the raw copies held in `rejected`. */
+  rejectedBytes = 0;
 
   constructor(
     readonly spacecraftId: number,
@@ -78,9 +88,20 @@ export class PacketBatch implements PacketVisitor {
     private readonly nowMs = Date.now(),
   ) {}
 
-  record(rec: TelemetryRecord): void {
+  /**
+   * The raw octets of the packet at a stream offset, for quarantining a packet that decoded but
+   * is refused here. The caller that owns the bytes sets it; without it the packet is encoded
+   * again from its fields (exact except for spare octets, which the decoder does not check).
+   */
+  rawSource: ((offset: number, length: number) => Uint8Array) | null = null;
+
+  record(rec: TelemetryRecord, offset = 0, length = 0): void {
     const tt = rec.coarse * 65536 + rec.fine;
     const us = timeTagMicros(rec.coarse, rec.fine);
+    if ((EPOCH_2000_UNIX_S * 1e6 + us) / 1000 > this.nowMs + FUTURE_TOLERANCE_MS) {
+      this.reject(offset, 'time tag in future', this.rawSource && length > 0 ? this.rawSource(offset, length) : encodePacket(rec));
+      return;
+    }
     const apid = APID_OF[rec.kind];
     const w = this.copy.get(apid)!;
     w.tuple(5 + PACKET_TABLES[apid].columns.length).int4(this.spacecraftId).timestampUs(us).int8(tt).int4(rec.seq).int4(this.batchId);
@@ -122,6 +143,7 @@ export class PacketBatch implements PacketVisitor {
   reject(offset: number, reason: RejectReason, raw: Uint8Array): void {
     // The raw view may point into a buffer that is reused; keep a copy for forensics.
     this.rejected.push({ offset, reason, raw: Uint8Array.from(raw) });
+    this.rejectedBytes += raw.byteLength;
   }
 
   idle(): void {
@@ -172,7 +194,19 @@ function dayName(day: number): string {
   return new Date(day * DAY_MS).toISOString().slice(0, 10).replaceAll('-', '');
 }
 
-/** Create the daily partitions that hold these days (idempotent, safe under concurrency). */
+/** Key of the advisory lock that serialises partition creation across all processes. */
+const PARTITION_LOCK = "hashtext('millrace.day-partitions')";
+
+/**
+ * Create the daily partitions that hold these days (idempotent, safe under concurrency).
+ *
+ * Two sessions running CREATE TABLE IF NOT EXISTS … PARTITION OF for one name at once can both
+ * pass the existence check; the loser then fails on the catalog's unique index (23505) rather
+ * than 42P07. So each partition is created in its own short transaction under one advisory lock,
+ * which makes a second creator wait and then find the table; 23505 and 42P07 still count as
+ * "exists" for any creator outside this function. One transaction per partition keeps the lock
+ * on each parent table short and never holds two parents at once.
+ */
 export async function ensureDayPartitions(pool: pg.Pool, days: Iterable<number>): Promise<void> {
   const todo: { table: string; name: string; day: number }[] = [];
   for (const day of days) {
@@ -188,11 +222,16 @@ export async function ensureDayPartitions(pool: pg.Pool, days: Iterable<number>)
     for (const p of todo) {
       const from = new Date(p.day * DAY_MS).toISOString();
       const to = new Date((p.day + 1) * DAY_MS).toISOString();
+      await client.query('BEGIN');
       try {
+        await client.query(`SELECT pg_advisory_xact_lock(${PARTITION_LOCK})`);
         await client.query(`CREATE TABLE IF NOT EXISTS ${p.name} PARTITION OF ${p.table} FOR VALUES FROM ('${from}') TO ('${to}')`);
+        await client.query('COMMIT');
       } catch (err) {
-        // Another process created it between our check and our create.
-        if ((err as { code?: string }).code !== '42P07') throw err;
+        await client.query('ROLLBACK').catch(() => undefined);
+        const code = (err as { code?: string }).code;
+        // Created by someone else between the check and the create.
+        if (code !== '42P07' && code !== '23505') throw err;
       }
       knownPartitions.add(p.name);
     }

@@ -7,14 +7,20 @@ import type pg from 'pg';
 import type { Kysely } from 'kysely';
 import type { Database } from './db/schema';
 import { HttpError } from './http';
-import { ingestStream, type IngestReport } from './ingest';
+import { ingestStream, type StreamReport } from './ingest';
 import { insertAuditEntry } from './audit';
 
-export interface UploadReport extends IngestReport {
+/** An upload's answer: the ingest report (counts exact, lists capped) and the kept file. */
+export interface UploadReport extends StreamReport {
   uploadId: number;
-  bytes: number;
-  idle: number;
   sha256: string | null;
+}
+
+/** The pass file could not be kept on disk. */
+class FileWriteError extends Error {
+  constructor(err: Error) {
+    super(err.message);
+  }
 }
 
 function safeName(name: string): string {
@@ -68,17 +74,41 @@ async function storeUploadedStream(
   await db.updateTable('packet_upload').set({ stored_path: stored }).where('id', '=', row.id).execute();
   const hash = createHash('sha256');
   const out = fs.createWriteStream(stored);
+  // A disk error (full, read-only, gone) must end this upload, not the server: without a
+  // listener an 'error' event would be thrown out of the event loop.
+  let writeError: Error | null = null;
+  let wake: (() => void) | null = null;
+  out.on('error', (err) => {
+    writeError ??= err;
+    wake?.();
+  });
+  const waitFor = (event: 'drain' | 'finish') =>
+    new Promise<void>((res) => {
+      wake = () => {
+        out.off(event, wake!);
+        wake = null;
+        res();
+      };
+      out.once(event, wake);
+    });
   async function* teed(): AsyncGenerator<Uint8Array> {
     for await (const chunk of stream) {
+      if (writeError) throw new FileWriteError(writeError);
       const c = chunk as Buffer;
       hash.update(c);
-      if (!out.write(c)) await new Promise<void>((r) => out.once('drain', () => r()));
+      if (!out.write(c)) await waitFor('drain');
+      if (writeError) throw new FileWriteError(writeError);
       yield new Uint8Array(c.buffer, c.byteOffset, c.byteLength);
     }
   }
   try {
     const r = await ingestStream(pool, db, teed(), { spacecraftId: meta.spacecraftId, stationId: meta.stationId, uploadId: row.id });
-    await new Promise<void>((res, rej) => out.end((err?: Error | null) => (err ? rej(err) : res())));
+    if (!writeError) {
+      const finished = waitFor('finish');
+      out.end();
+      await finished;
+    }
+    if (writeError) throw new FileWriteError(writeError);
     const sha256 = hash.digest('hex');
     const report: UploadReport = { uploadId: row.id, sha256, ...r };
     await db
@@ -90,6 +120,22 @@ async function storeUploadedStream(
     return report;
   } catch (err) {
     out.destroy();
+    stream.resume(); // let the rest of the request body drain
+    const failure = err instanceof FileWriteError ? err : writeError ? new FileWriteError(writeError) : null;
+    if (failure) {
+      // A partial file is no record of the pass: remove it, so that nothing offers it for re-ingest.
+      await fs.promises.rm(stored, { force: true }).catch(() => undefined);
+      await db
+        .updateTable('packet_upload')
+        .set({ status: 'failed', stored_path: '', report: JSON.stringify({ error: `the file could not be written to disk: ${failure.message}` }) })
+        .where('id', '=', row.id)
+        .execute();
+      throw new HttpError(
+        'INTERNAL_SERVER_ERROR',
+        `The pass file could not be written to the server's disk (${failure.message}); the partial file was removed. ` +
+          'Packets stored before the failure stay stored; once the disk takes writes again, upload the file again (what is already stored counts as duplicates).',
+      );
+    }
     await db.updateTable('packet_upload').set({ status: 'failed', report: JSON.stringify({ error: String(err) }) }).where('id', '=', row.id).execute();
     throw err;
   }
@@ -102,9 +148,9 @@ function summary(r: UploadReport) {
     accepted: r.accepted,
     duplicates: r.duplicates,
     idle: r.idle,
-    rejectedCount: r.rejected.length,
+    rejectedCount: r.rejectedCount,
     rejected: r.rejected.slice(0, 200),
-    gapCount: r.gaps.length,
+    gapCount: r.gapCount,
     gaps: r.gaps.slice(0, 200),
   };
 }

@@ -99,7 +99,9 @@ export type RejectReason =
   | 'crc mismatch'
   | 'unknown loop id'
   | 'non-finite value'
-  | 'bad field value';
+  | 'bad field value'
+  /** Refused by the store, not the decoder: a time tag more than a day after arrival. */
+  | 'time tag in future';
 
 /** Seconds between the Unix epoch and the contract's epoch, 2000-01-01T00:00:00Z. */
 export const EPOCH_2000_UNIX_S = 946_684_800;
