@@ -61,10 +61,11 @@ async function streamFleet(job: StreamJob): Promise<void> {
   const watch = async (key: string) => {
     try {
       const res = await fetch(`${job.baseUrl}/api/live/${key}`, { headers: { cookie, accept: 'text/event-stream' }, signal: stop.signal });
+      if (res.status !== 200) throw new Error(`the live stream of ${key} answered ${res.status}`);
       const reader = res.body!.getReader();
       for (;;) if ((await reader.read()).done) break;
-    } catch {
-      // stopped
+    } catch (err) {
+      if (!stop.signal.aborted) throw err;
     }
   };
   const fly = async (c: StreamJob['craft'][number]) => {
@@ -128,7 +129,11 @@ const server = spawn(process.execPath, [ENTRY], {
   stdio: ['ignore', 'ignore', 'inherit'],
 });
 let streamer: ReturnType<typeof spawn> | null = null;
+let stopping = false;
+/** Set when the fleet's streaming process ended before the measurement did (the load would be missing). */
+let streamerDied: string | null = null;
 const stop = async () => {
+  stopping = true;
   streamer?.kill('SIGTERM');
   server.kill('SIGTERM');
   fs.rmSync(jobFile, { force: true });
@@ -145,6 +150,9 @@ for (let i = 0; i < 200; i++) {
 
 // The rest of the fleet starts streaming; measuring begins once both have been stored a few times.
 streamer = spawn(process.execPath, ['--import', 'tsx', 'scripts/bench-live.ts'], { env: { ...process.env, BENCH_LIVE_STREAM: jobFile }, stdio: ['ignore', 'inherit', 'inherit'] });
+streamer.on('exit', (code, signal) => {
+  if (!stopping) streamerDied = `the fleet's streaming process ended early (${code ?? signal})`;
+});
 const fleetLoad = (from: Date, to: Date) =>
   db
     .selectFrom('ingest_batch')
@@ -236,6 +244,7 @@ try {
     await new Promise((r) => setTimeout(r, 400));
   }
   measureTo = new Date();
+  if (streamerDied) throw new Error(streamerDied);
   const l = await fleetLoad(measureFrom, measureTo);
   load = { batches: Number(l.batches), packets: Number(l.packets ?? 0), bytes: Number(l.bytes ?? 0) };
 } finally {

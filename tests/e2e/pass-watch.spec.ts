@@ -1,8 +1,14 @@
 import fs from 'node:fs';
 import { expect, test, type APIRequestContext, type Page } from '@playwright/test';
 import { DEMO_PASSWORD, ROLE_ACCOUNTS, type DemoRole } from './accounts';
-import { attitudeRecord, concatBytes, loopRecord } from '../integration/packets';
-import { encodePacket } from '../../src/lib/telemetry';
+import { concatBytes } from '../integration/packets';
+import { decodeBuffer } from '../../src/lib/telemetry/decode';
+import { APID, type LoopRecord } from '../../src/lib/telemetry/types';
+import { cucToUnixSeconds } from '../../src/lib/telemetry/cuc';
+import { formatValue } from '../../src/lib/format';
+import { spacecraftSheetSchema } from '../../src/lib/spacecraft-sheet.schema';
+import { PacketStream } from '../../ingest/generator';
+import { parseScenario } from '../../ingest/scenario.schema';
 
 const SCREENS = 'test-results/screens';
 const shot = (page: Page, name: string) => page.screenshot({ path: `${SCREENS}/${name}.png`, fullPage: true });
@@ -22,30 +28,51 @@ async function contextAs(playwright: { request: { newContext: (o: { baseURL: str
   return ctx;
 }
 
-/** Real-time housekeeping of MR-1 at 10 Hz: sequence counts and sample times only increase. */
-class Link {
-  private seq = 9000;
-  private clockMs = Math.floor(Date.now() / 1000) * 1000 - 20_000;
+/** Loop housekeeping packets the link drops in the injected fault (10 Hz: 25 s of loop data). */
+const DROPPED = 250;
+/** The injected fault starts this long after the simulated timeline does. */
+const FAULT_AT_S = 60;
+
+/**
+ * MR-1 on the link, from the simulated feed's packet generator: the spacecraft simulation flies a
+ * scenario whose only fault is a link dropout of DROPPED loop packets FAULT_AT_S into the timeline,
+ * and each post sends what it produced since the last one to /api/ingest, as the feed does in a pass.
+ * The timeline starts 100 s before the test, so that the dropout and the packets after it lie in the
+ * past (never ahead of the clock) by the time the test asks for them.
+ */
+class SimLink {
+  private readonly stream: PacketStream;
+  readonly startMs = Math.floor(Date.now() / 1000) * 1000 - 100_000;
+  /** The newest loop-0 record posted. */
+  newestLoop: LoopRecord | null = null;
   constructor(
     private readonly request: APIRequestContext,
     private readonly token: string,
-  ) {}
-  /** Post `seconds` of attitude and loop-0 packets at `current_a`; returns the newest sample time (Unix ms). */
-  async post(seconds: number, current_a = 5): Promise<number> {
-    const parts: Uint8Array[] = [];
-    let last = 0;
-    for (let i = 0; i < seconds * 10; i++) {
-      last = this.clockMs + i * 100;
-      parts.push(encodePacket(attitudeRecord(this.seq % 16384, last)), encodePacket(loopRecord(this.seq % 16384, last, 0, current_a)));
-      this.seq++;
-    }
-    this.clockMs += seconds * 1000;
+  ) {
+    const sheet = spacecraftSheetSchema.parse(JSON.parse(fs.readFileSync('ingest/fleet/MR-1.json', 'utf8')));
+    const scenario = parseScenario({
+      name: 'e2e link dropout',
+      description: 'Healthy MR-1; the link drops a run of loop housekeeping packets.',
+      seed: 41,
+      faults: [{ kind: 'sequence-gap', apid: APID.loop, start_s: FAULT_AT_S, count: DROPPED }],
+    });
+    this.stream = new PacketStream({ sheet, scenario, startMs: this.startMs });
+  }
+  /** Loop packets the simulation has dropped on the link so far. */
+  get dropped(): number {
+    return this.stream.counts[APID.loop].dropped;
+  }
+  /** Simulate up to `untilMs` (never past now) and post what came out; returns the newest loop-0 sample time (Unix ms). */
+  async postUntil(untilMs: number): Promise<number> {
+    this.stream.advanceTo(Math.min(untilMs, Date.now()));
+    const body = concatBytes(this.stream.flush());
+    decodeBuffer(body, { loopIds: new Set([0]) }, { record: (r) => r.kind === 'loop' && r.loopId === 0 && (this.newestLoop = r), reject: () => {}, idle: () => {} });
     const res = await this.request.post('/api/ingest?station=ribeira', {
       headers: { authorization: `Bearer ${this.token}`, 'content-type': 'application/octet-stream' },
-      data: Buffer.from(concatBytes(parts)),
+      data: Buffer.from(body),
     });
     expect(res.status(), await res.text()).toBe(200);
-    return last;
+    return Math.round(cucToUnixSeconds(this.newestLoop!.coarse, this.newestLoop!.fine) * 1000);
   }
 }
 
@@ -54,13 +81,15 @@ const newestOnChart = (page: Page) => page.locator('[data-spacecraft="MR-1"]').g
 test.describe('as the operator', () => {
   signedInAs('operator');
 
-  test('watches MR-1 while packets arrive, sees the charts grow, acknowledges a warning trip with a note and finds it acknowledged in Trips', async ({ page, playwright, baseURL }) => {
+  test('watches MR-1 while simulated packets arrive, sees the charts grow, gets the trip of an injected link dropout, acknowledges it with a note and finds it acknowledged in Trips', async ({ page, playwright, baseURL }) => {
     fs.mkdirSync(SCREENS, { recursive: true });
     const admin = await contextAs(playwright, baseURL!, 'admin');
     const created = await admin.post('/api/spacecraft/MR-1/tokens', { data: { label: 'pass watch e2e' } });
     expect(created.status()).toBe(201);
-    const link = new Link(admin, ((await created.json()) as { token: string }).token);
-    const lastPosted = await link.post(3);
+    const link = new SimLink(admin, ((await created.json()) as { token: string }).token);
+    // Fifty healthy seconds of the simulated timeline.
+    let simMs = link.startMs + 50_000;
+    const lastPosted = await link.postUntil(simMs);
 
     await page.goto('/');
     await page.getByRole('navigation', { name: 'Main' }).getByRole('link', { name: 'Pass watch' }).click();
@@ -78,28 +107,39 @@ test.describe('as the operator', () => {
     expect(first, 'no other MR-1 sample is newer than this link posts').toBeLessThanOrEqual(lastPosted);
     let newest = first;
     for (let k = 0; k < 4; k++) {
-      newest = await link.post(1, 7);
+      simMs += 1000;
+      newest = await link.postUntil(simMs);
       await expect.poll(() => newestOnChart(page), { timeout: 5000 }).toBeGreaterThanOrEqual(newest);
     }
     expect(newest).toBeGreaterThan(first);
+    expect(link.dropped, 'the dropout lies ahead').toBe(0);
+    // The readout shows the newest measured current the simulation sent (as the charts round it).
     const health = page.getByRole('article', { name: 'Loop L0 health' });
-    await expect(health.getByRole('row', { name: /Current/ })).toContainText('6.93');
+    const current = Number(link.newestLoop!.measuredCurrent_a.toPrecision(6));
+    await expect(health.getByRole('row', { name: /Current/ })).toContainText(formatValue(current));
     await shot(page, 'pass-watch-live-light');
 
-    // Beyond the warning level of the measured current for longer than its persistence; the engineer runs the jobs.
-    await link.post(2, 34);
+    // The simulation flies on through the injected fault: the link drops 250 loop packets, then the
+    // packets after the dropout arrive and reveal the gap. The engineer runs the jobs.
+    await link.postUntil(Date.now());
+    expect(link.dropped, 'the whole dropout was flown').toBe(DROPPED);
     const engineer = await contextAs(playwright, baseURL!, 'engineer');
     expect((await engineer.post('/api/jobs/run', { data: {} })).status()).toBe(200);
-    const trips = (await (await page.request.get('/api/trips?spacecraft=MR-1&kind=channel-limit&state=open')).json()) as { trips: { id: number; quantity: string; level: string; loop_id: number | null }[] };
-    const trip = trips.trips.find((t) => t.quantity === 'measured_current_a' && t.loop_id === 0 && t.level === 'warning');
+    const trips = (await (await page.request.get('/api/trips?spacecraft=MR-1&kind=telemetry-gap&state=open')).json()) as {
+      trips: { id: number; quantity: string; level: string; loop_id: number | null; value: number | null }[];
+    };
+    const trip = trips.trips.find((t) => t.quantity === 'missing_packets' && t.level === 'warning');
     expect(trip, JSON.stringify(trips)).toBeDefined();
+    // The trip is the dropout's: 250 packets missing in the window it ended in (warning at 200).
+    expect(trip!.loop_id).toBeNull();
+    expect(trip!.value).toBe(DROPPED);
 
     // The trip reaches the open page by the live stream.
     const item = page.getByRole('listitem', { name: `Trip ${trip!.id}` });
     await expect(item).toBeVisible({ timeout: 10_000 });
     await expect(item).toContainText('warning');
-    await expect(item).toContainText('Measured pump current');
-    await expect(health.locator('header')).toContainText('warning');
+    await expect(item).toContainText('Packets missing in sequence gaps');
+    await expect(page.getByRole('article', { name: 'Body health' }).locator('header')).toContainText('warning');
     await shot(page, 'pass-watch-trip-light');
     await page.getByRole('button', { name: 'Switch between light and dark theme' }).click();
     await expect(page.locator('html')).toHaveAttribute('data-theme', 'dark');
@@ -109,10 +149,10 @@ test.describe('as the operator', () => {
     // A warning needs a note.
     await item.getByRole('button', { name: 'Acknowledge' }).click();
     await expect(item.getByText('A warning needs a note')).toBeVisible();
-    await item.getByLabel(/Note/).fill('Current above 32 A after the test slew; pump commanded back to 5 A, watching the next pass.');
+    await item.getByLabel(/Note/).fill('Link dropped 250 loop packets over Ribeira; attitude kept coming, loop data resumed; watching the next pass.');
     await item.getByRole('button', { name: 'Acknowledge' }).click();
     await expect(item).toContainText('acknowledged', { timeout: 10_000 });
-    await expect(item).toContainText('Current above 32 A after the test slew');
+    await expect(item).toContainText('Link dropped 250 loop packets over Ribeira');
     await shot(page, 'pass-watch-acknowledged-dark');
     await page.getByRole('button', { name: 'Switch between light and dark theme' }).click();
 
@@ -123,9 +163,9 @@ test.describe('as the operator', () => {
     // Six stations under a low orbit: some pass of the last day has always ended.
     await form.getByRole('button', { name: 'Save handover note' }).click();
     await expect(form.getByText('Write the handover')).toBeVisible();
-    await form.getByLabel('Handover note').fill('Trip on L0 current acknowledged; pump back at 5 A. Next shift: watch L0 current at AOS.');
+    await form.getByLabel('Handover note').fill('Link dropout trip acknowledged; loop data back. Next shift: watch the packet count at AOS.');
     await form.getByRole('button', { name: 'Save handover note' }).click();
-    await expect(log.getByRole('list', { name: 'Passes' }).getByText('Trip on L0 current acknowledged; pump back at 5 A.')).toBeVisible();
+    await expect(log.getByRole('list', { name: 'Passes' }).getByText('Link dropout trip acknowledged; loop data back.')).toBeVisible();
     await shot(page, 'pass-watch-pass-log-light');
 
     await page.getByRole('navigation', { name: 'Main' }).getByRole('link', { name: 'Trips' }).click();
