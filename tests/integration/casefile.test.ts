@@ -66,6 +66,19 @@ async function fly(): Promise<Flown> {
   return { sc: { id: sc.id, key }, startMs, scenario, rampStartMs: startMs + fault.start_s * 1000, rampEndMs: startMs + (fault.start_s + fault.ramp_s) * 1000 };
 }
 
+/** Loop 0's stored windows of the flown spacecraft inside an evidence answer's span, oldest first. */
+function loopWindowsOf(ev: EvidenceResponse) {
+  return db
+    .selectFrom('loop_window')
+    .select(['window_start', 'effectiveness', 'effectiveness_stderr', 'drift_cusum_lo', 'pressure_effectiveness', 'resistance_ohm'])
+    .where('spacecraft_id', '=', flown.sc.id)
+    .where('loop_id', '=', 0)
+    .where('window_start', '>=', new Date(ev.span.from))
+    .where('window_start', '<', new Date(ev.span.to))
+    .orderBy('window_start')
+    .execute();
+}
+
 function multipart(body: string, files: { name: string; bytes: Buffer; type?: string }[]): FormData {
   const form = new FormData();
   form.append('body', body);
@@ -104,15 +117,7 @@ describe('evidence of a torque-constant-loss trip', () => {
     expect(res.status).toBe(200);
     const ev = (await res.json()) as EvidenceResponse;
     expect(ev.loopId).toBe(0);
-    const rows = await db
-      .selectFrom('loop_window')
-      .select(['window_start', 'effectiveness', 'effectiveness_stderr', 'drift_cusum_lo', 'pressure_effectiveness', 'resistance_ohm'])
-      .where('spacecraft_id', '=', flown.sc.id)
-      .where('loop_id', '=', 0)
-      .where('window_start', '>=', new Date(ev.span.from))
-      .where('window_start', '<', new Date(ev.span.to))
-      .orderBy('window_start')
-      .execute();
+    const rows = await loopWindowsOf(ev);
     expect(rows.length).toBeGreaterThan(20);
     expect(ev.windows).toBe(rows.length);
     const stored = (col: 'effectiveness' | 'drift_cusum_lo' | 'pressure_effectiveness' | 'resistance_ohm') => rows.filter((r) => r[col] !== null);
@@ -282,15 +287,7 @@ describe('the span: one set of defaults and checks for the evidence, the CSV, th
 describe('the numbers the report and readings quote come from the full rows', () => {
   it('the last windows are the last real windows, not the last downsampled points', async () => {
     const ev = (await (await as.analyst!.get(`/api/trips/${tripId}/evidence?points=20`)).json()) as EvidenceResponse;
-    const rows = await db
-      .selectFrom('loop_window')
-      .select(['window_start', 'effectiveness', 'pressure_effectiveness', 'resistance_ohm'])
-      .where('spacecraft_id', '=', flown.sc.id)
-      .where('loop_id', '=', 0)
-      .where('window_start', '>=', new Date(ev.span.from))
-      .where('window_start', '<', new Date(ev.span.to))
-      .orderBy('window_start')
-      .execute();
+    const rows = await loopWindowsOf(ev);
     for (const col of ['effectiveness', 'pressure_effectiveness', 'resistance_ohm'] as const) {
       const last = rows.filter((r) => r[col] !== null).slice(-RECENT_WINDOWS);
       expect(last.length, col).toBe(RECENT_WINDOWS);

@@ -231,30 +231,15 @@ describe('ground stations through the API', () => {
     const los = past.los_at.getTime();
     const other = await db.selectFrom('ground_station').select('id').where('key', '=', 'ribeira').executeTakeFirstOrThrow();
     const otherSc = await newSpacecraft('MR-2');
-    const batch = (stationId: number, spacecraftId: number, atMs: number, n: { realtime: number; playback: number; bytes: number; duplicates?: number; rejected?: number }) => ({
-      spacecraft_id: spacecraftId,
-      station_id: stationId,
-      source: 'post' as const,
-      received_at: new Date(atMs),
-      bytes: n.bytes,
-      accepted: n.realtime + n.playback,
-      duplicates: n.duplicates ?? 0,
-      rejected: n.rejected ?? 0,
-      idle: 0,
-      realtime: n.realtime,
-      playback: n.playback,
-      first_time_tag: timeTag(atMs - 1000),
-      last_time_tag: timeTag(atMs),
-    });
     await db
       .insertInto('ingest_batch')
       .values([
-        batch(st.id, sc.id, aos + 10_000, { realtime: 100, playback: 0, bytes: 4000, duplicates: 2, rejected: 1 }),
-        batch(st.id, sc.id, (aos + los) / 2, { realtime: 20, playback: 300, bytes: 16_000 }),
-        batch(st.id, sc.id, aos - 5_000, { realtime: 7, playback: 0, bytes: 700 }), // before AOS
-        batch(st.id, sc.id, los + 5_000, { realtime: 9, playback: 0, bytes: 900 }), // after LOS
-        batch(other.id, sc.id, aos + 20_000, { realtime: 11, playback: 0, bytes: 1100 }), // another station
-        batch(st.id, otherSc.id, aos + 20_000, { realtime: 13, playback: 0, bytes: 1300 }), // another spacecraft
+        batchRow(st.id, sc.id, aos + 10_000, { realtime: 100, playback: 0, bytes: 4000, duplicates: 2, rejected: 1 }),
+        batchRow(st.id, sc.id, (aos + los) / 2, { realtime: 20, playback: 300, bytes: 16_000 }),
+        batchRow(st.id, sc.id, aos - 5_000, { realtime: 7, playback: 0, bytes: 700 }), // before AOS
+        batchRow(st.id, sc.id, los + 5_000, { realtime: 9, playback: 0, bytes: 900 }), // after LOS
+        batchRow(other.id, sc.id, aos + 20_000, { realtime: 11, playback: 0, bytes: 1100 }), // another station
+        batchRow(st.id, otherSc.id, aos + 20_000, { realtime: 13, playback: 0, bytes: 1300 }), // another spacecraft
       ])
       .execute();
     await db
