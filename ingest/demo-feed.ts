@@ -8,7 +8,7 @@ import { db } from '../src/lib/server/db';
 import { createIngestToken } from '../src/lib/server/ingest-tokens';
 import { findSheetInForce } from '../src/lib/server/spacecraft';
 import { config } from '../src/lib/server/config';
-import { BACKFILL_HOURS, BACKFILL_SCENARIOS, SCENARIOS } from './demo-fleet';
+import { BACKFILL_HOURS, BACKFILL_SCENARIOS, SCENARIOS, playbackTimelineStart } from './demo-fleet';
 import { writeConfigStations } from './passes';
 
 const LABEL = 'demo feed';
@@ -40,6 +40,12 @@ const empty = !(await db.selectFrom('loop_sample').select('spacecraft_id').limit
 const backfill = empty && process.argv.length <= 2;
 if (backfill) {
   startedAtMs = Math.floor(Date.now() / 1000) * 1000 - BACKFILL_HOURS * 3600_000;
+  previousScenario = new Map();
+}
+// A playback asked for on the command line covers the hours just past, not the hours to come.
+const asked = playbackTimelineStart(process.argv.slice(2), Date.now());
+if (asked !== null) {
+  startedAtMs = asked;
   previousScenario = new Map();
 }
 const scenarioOf = (key: string) => previousScenario.get(key) ?? path.resolve((backfill ? BACKFILL_SCENARIOS : SCENARIOS)[key] ?? 'ingest/scenarios/healthy.json');

@@ -8,3 +8,16 @@ export const BACKFILL_HOURS = 2;
 
 /** The first start's playback flies MR-1's faults after a healthy hour, so its drift baseline is a healthy one. */
 export const BACKFILL_SCENARIOS: Record<string, string> = { ...SCENARIOS, 'MR-1': 'ingest/scenarios/demo-recorded.json' };
+
+/**
+ * Where the simulated timeline starts when the feed is asked for a playback (`--playback
+ * [--hours h]`, 24 h by default, as the feed itself reads them): `hours` before now, so that the
+ * day played back is the day just past; null for a real-time run.
+ */
+export function playbackTimelineStart(args: readonly string[], nowMs: number): number | null {
+  if (!args.includes('--playback')) return null;
+  const i = args.indexOf('--hours');
+  const hours = i >= 0 ? Number(args[i + 1]) : 24;
+  if (!(Number.isFinite(hours) && hours > 0)) return null; // the feed refuses it with its usage
+  return Math.floor(nowMs / 1000) * 1000 - Math.round(hours * 3_600_000);
+}

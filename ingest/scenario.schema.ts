@@ -61,13 +61,22 @@ export const electrodeResistanceRiseFaultSchema = z
   })
   .strict();
 
+/**
+ * Pulsation is seen through the burst captures (400 Hz): a frequency at or above their Nyquist
+ * frequency would show at a false, aliased one, so the scenario refuses it.
+ */
+export const PULSATION_MAX_HZ = 200;
+
 export const pulsationFaultSchema = z
   .object({
     kind: z.literal('pulsation'),
     loopId,
     start_s: start,
     ramp_s: ramp,
-    frequency_Hz: positive('frequency_Hz').max(1000, 'frequency_Hz must be at most 1000'),
+    frequency_Hz: positive('frequency_Hz').lt(
+      PULSATION_MAX_HZ,
+      `frequency_Hz must be below ${PULSATION_MAX_HZ}, half the burst capture rate: a higher one would be captured at a false (aliased) frequency`,
+    ),
     amplitude_Pa: positive('amplitude_Pa').max(1e5, 'amplitude_Pa must be at most 100000'),
   })
   .strict();

@@ -3,7 +3,7 @@ import { beforeAll, describe, expect, it } from 'vitest';
 import { sql } from 'kysely';
 import { BASE_URL, clientAs, db } from './support';
 import { attitudeRecord, concatBytes, loopRecord, loopStream } from './packets';
-import { encodePacket, encodeIdlePacket } from '../../src/lib/telemetry';
+import { encodePacket, encodeIdlePacket, unixMsToCuc } from '../../src/lib/telemetry';
 import { createIngestToken } from '../../src/lib/server/ingest-tokens';
 import { findSpacecraftByKey } from '../../src/lib/server/spacecraft';
 import { createPool } from '../../src/lib/server/db';
@@ -95,6 +95,43 @@ describe('POST /api/ingest', () => {
     const r = await post(body);
     expect(r.body.accepted).toBe(5);
     expect(r.body.gaps).toEqual([{ apid: 32, from: 0, to: 1 }]);
+  });
+
+  it('two requests committing at once that fill each other leave no open gap', async () => {
+    // A live request (counts 500–509) and the playback of the counts before it (100–499) arrive
+    // together, as from two stations: whichever commits second must see the other's packets.
+    for (let round = 0; round < 12; round++) {
+      const t0 = hour(100 + round); // clear of the day after hour(8) that the kill test counts
+      expect((await post(loopStream(100, t0, 0))).body.accepted).toBe(100); // counts 0–99 already stored
+      const playback = loopStream(400, t0 + 10_000, 100);
+      const live = loopStream(10, t0 + 50_000, 500);
+      const answers = await Promise.all([post(playback), post(live)]);
+      expect(answers.map((a) => a.body.accepted)).toEqual([400, 10]);
+      const open = await db
+        .selectFrom('sequence_gap')
+        .select(['from_seq', 'to_seq'])
+        .where('spacecraft_id', '=', spacecraftId)
+        .where('apid', '=', 32)
+        .where('filled_at', 'is', null)
+        .where('after_time_tag', '>=', (t0 / 1000 - 946_684_800) * 65536)
+        .where('before_time_tag', '<', (t0 / 1000 + 3600 - 946_684_800) * 65536)
+        .execute();
+      expect(open, `round ${round}`).toEqual([]);
+    }
+  });
+
+  it('finds a lost event report although events come many minutes apart', async () => {
+    const t0 = hour(50);
+    const ev = (seq: number, ms: number) => {
+      const { coarse, fine } = unixMsToCuc(ms);
+      return encodePacket({ kind: 'event', seq, coarse, fine, severity: 2, code: 7, loopId: null, text: `event ${seq}` });
+    };
+    // Counts 40 and 41 never arrive; the next event comes 40 min after the last one received.
+    const r = await post(concatBytes([ev(38, t0), ev(39, t0 + 20 * 60_000), ev(42, t0 + 60 * 60_000)]));
+    expect(r.body).toMatchObject({ accepted: 3, gaps: [{ apid: 64, from: 40, to: 41 }] });
+    // Counts of one APID more than a day apart are not compared (the count may have wrapped).
+    const later = await post(ev(50, t0 + 26 * 3_600_000));
+    expect(later.body.gaps).toEqual([]);
   });
 
   it('stores the good packets of a body with bad ones and lists each bad one by offset and reason', async () => {
@@ -214,7 +251,10 @@ describe('POST /api/ingest', () => {
 
   it('a server killed mid-request stores nothing of it; the resend stores all', async () => {
     const port = 4000 + Math.floor(Math.random() * 500);
-    const child = spawn(process.execPath, ['dist/server/entry.mjs'], { env: { ...process.env, PORT: String(port), HOST: '127.0.0.1' }, stdio: 'ignore' });
+    // The child's sessions carry their own name, so that only its COPY counts below (the cluster
+    // may be shared with other test databases or a running demo).
+    const appName = `millrace-kill-test-${port}`;
+    const child = spawn(process.execPath, ['dist/server/entry.mjs'], { env: { ...process.env, PORT: String(port), HOST: '127.0.0.1', PGAPPNAME: appName }, stdio: 'ignore' });
     const base = `http://127.0.0.1:${port}`;
     for (let i = 0; i < 100; i++) {
       try {
@@ -231,7 +271,7 @@ describe('POST /api/ingest', () => {
     // Wait until that server is inside its transaction, then kill it without warning.
     let seen = false;
     for (let i = 0; i < 2000 && !seen; i++) {
-      const r = await sql<{ n: number }>`SELECT count(*)::int AS n FROM pg_stat_activity WHERE state <> 'idle' AND query LIKE 'COPY %loop_sample%'`.execute(db);
+      const r = await sql<{ n: number }>`SELECT count(*)::int AS n FROM pg_stat_activity WHERE application_name = ${appName} AND datname = current_database() AND state <> 'idle' AND query LIKE 'COPY %loop_sample%'`.execute(db);
       seen = r.rows[0]!.n > 0;
       if (!seen) await new Promise((r) => setTimeout(r, 5));
     }
@@ -240,7 +280,7 @@ describe('POST /api/ingest', () => {
     expect(await pending).toBeNull();
     // Give PostgreSQL a moment to notice the dropped connection and roll back.
     for (let i = 0; i < 50; i++) {
-      const r = await sql<{ n: number }>`SELECT count(*)::int AS n FROM pg_stat_activity WHERE query LIKE 'COPY %loop_sample%' AND state <> 'idle'`.execute(db);
+      const r = await sql<{ n: number }>`SELECT count(*)::int AS n FROM pg_stat_activity WHERE application_name = ${appName} AND datname = current_database()`.execute(db);
       if (r.rows[0]!.n === 0) break;
       await new Promise((r) => setTimeout(r, 100));
     }

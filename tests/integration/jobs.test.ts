@@ -161,6 +161,44 @@ describe('limit quantities through the trip engine', () => {
   }, 60_000);
 });
 
+describe('a sheet that takes effect in the past', () => {
+  it('hands the batches it governs back to the analysis, whose windows from its effective time on then carry it', async () => {
+    const { sc, startMs, endMs } = await fly('MR-1', 'healthy', 6, { rules: RULES, prefix: 'B' });
+    expect((await runAnalysisJob(db, pool, sc, { nowMs: endMs + 5_000 })).status).toBe('done');
+    const windows = () => db.selectFrom('loop_window').select(['window_start', 'sheet_id', 'effectiveness']).where('spacecraft_id', '=', sc.id).where('loop_id', '=', 0).orderBy('window_start').execute();
+    const first = await windows();
+    expect(first.length).toBeGreaterThanOrEqual(5);
+    const firstSheet = first[0]!.sheet_id;
+    expect(new Set(first.map((w) => w.sheet_id))).toEqual(new Set([firstSheet]));
+    // The engineer corrects the field strength from three minutes into the flight on.
+    const switchAt = new Date(Math.ceil((startMs + 3 * 60_000) / 60_000) * 60_000);
+    const sheet = JSON.parse(await fs.readFile('ingest/fleet/MR-1.json', 'utf8'));
+    sheet.spacecraft = { key: sc.key, name: `Test ${sc.key}` };
+    sheet.effectiveFrom = switchAt.toISOString();
+    for (const st of sheet.loops[0].pumpStations) st.field_T *= 0.9;
+    const res = await engineer.post(`/api/spacecraft/${sc.key}/sheets`, sheet);
+    expect(res.status).toBe(201);
+    const pending = await db.selectFrom('ingest_batch').select('id').where('spacecraft_id', '=', sc.id).where('analysed_at', 'is', null).execute();
+    expect(pending.length).toBeGreaterThan(0);
+    expect((await runAnalysisJob(db, pool, sc, { nowMs: endMs + 10_000 })).status).toBe('done');
+    const second = await windows();
+    const newSheet = await db.selectFrom('spacecraft_sheet').select('id').where('spacecraft_id', '=', sc.id).where('effective_from', '=', switchAt).executeTakeFirstOrThrow();
+    const before = second.filter((w) => w.window_start < switchAt);
+    const after = second.filter((w) => w.window_start >= switchAt);
+    expect(before.length).toBeGreaterThan(0);
+    expect(after.length).toBeGreaterThan(0);
+    expect(new Set(before.map((w) => w.sheet_id))).toEqual(new Set([firstSheet]));
+    expect(new Set(after.map((w) => w.sheet_id))).toEqual(new Set([newSheet.id]));
+    // The same estimate of kT against an ideal constant 0.9 of the first sheet's (the ideal kT is
+    // proportional to B): each window's effectiveness is 1/0.9 of what it was.
+    const was = new Map(first.map((w) => [w.window_start.getTime(), w.effectiveness]));
+    const ratios = after.filter((w) => w.effectiveness !== null && was.get(w.window_start.getTime())).map((w) => w.effectiveness! / was.get(w.window_start.getTime())!);
+    expect(ratios.length).toBeGreaterThan(0);
+    for (const r of ratios) expect(r).toBeCloseTo(1 / 0.9, 3);
+    for (const w of before.filter((x) => x.effectiveness !== null)) expect(w.effectiveness! / was.get(w.window_start.getTime())!).toBeCloseTo(1, 3);
+  }, 60_000);
+});
+
 describe('seeded demo limits', () => {
   it('each demo spacecraft’s active set has measured-current limits at its sheet’s rated current', async () => {
     for (const [key, rated] of [['MR-1', 25], ['MR-2', 30], ['MR-3', 22]] as const) {

@@ -1,4 +1,5 @@
 import fs from 'node:fs';
+import http from 'node:http';
 import path from 'node:path';
 import { sql } from 'kysely';
 import { describe, expect, it } from 'vitest';
@@ -199,6 +200,49 @@ describe('POST /api/uploads/packets', () => {
     }
   });
 
+  it('an upload the browser breaks off leaves the server up, marks it failed, removes the partial file, and refuses its re-ingest', async () => {
+    const operator = await clientAs('operator');
+    const boundary = 'millrace-abort-test';
+    const url = new URL(`${BASE_URL}/api/uploads/packets?spacecraft=MR-1`);
+    const before = await db.selectFrom('packet_upload').select(sql<number>`coalesce(max(id), 0)::int`.as('id')).executeTakeFirstOrThrow();
+    const req = http.request({
+      host: url.hostname,
+      port: url.port,
+      path: url.pathname + url.search,
+      method: 'POST',
+      headers: { cookie: operator.cookie, origin: BASE_URL, 'content-type': `multipart/form-data; boundary=${boundary}`, 'transfer-encoding': 'chunked' },
+    });
+    req.on('error', () => undefined); // the socket is destroyed on purpose
+    req.write(`--${boundary}\r\nContent-Disposition: form-data; name="file"; filename="broken.bin"\r\nContent-Type: application/octet-stream\r\n\r\n`);
+    req.write(Buffer.from(loopStream(40_000, Date.UTC(2026, 9, 25, 4)))); // 1.9 MB of the file, then the line drops
+    // Wait until the server has started keeping the file, then break the connection.
+    let row: { id: number; status: string; stored_path: string } | undefined;
+    for (let i = 0; i < 200 && !row; i++) {
+      row = await db.selectFrom('packet_upload').select(['id', 'status', 'stored_path']).where('id', '>', before.id).executeTakeFirst();
+      if (!row) await new Promise((r) => setTimeout(r, 25));
+    }
+    expect(row).toBeDefined();
+    const kept = row!.stored_path;
+    expect(path.isAbsolute(kept)).toBe(true);
+    req.destroy();
+    let status = row!.status;
+    for (let i = 0; i < 200 && status === 'receiving'; i++) {
+      await new Promise((r) => setTimeout(r, 50));
+      status = (await db.selectFrom('packet_upload').select('status').where('id', '=', row!.id).executeTakeFirstOrThrow()).status;
+    }
+    expect(status).toBe('failed');
+    const after = await db.selectFrom('packet_upload').select(['stored_path', 'report']).where('id', '=', row!.id).executeTakeFirstOrThrow();
+    expect(after.stored_path).toBe('');
+    expect(String((after.report as { error?: string }).error)).toMatch(/ended early/);
+    expect(fs.existsSync(kept)).toBe(false);
+    // The server is still up, and will not ingest the broken file again.
+    expect((await operator.get('/api/spacecraft')).status).toBe(200);
+    const again = await operator.post(`/api/uploads/${row!.id}/reingest`);
+    expect(again.status).toBe(409);
+    expect((await again.json()).error.fields.status[0]).toMatch(/failed/);
+  });
+
+  // Last: the client's connection that took the early 500 is not reused by a later request.
   it('answers a disk error while keeping the file with a clear 500, removes the partial file, and keeps serving', async () => {
     const dir = process.env.UPLOAD_DIR!;
     fs.mkdirSync(dir, { recursive: true });

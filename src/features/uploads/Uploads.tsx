@@ -236,7 +236,7 @@ function HistoryRow({ row, canUpload, stationName }: { row: UploadRow; canUpload
           <button type="button" className="btn h-7 px-2 text-xs" aria-expanded={open} onClick={() => setOpen((o) => !o)}>
             {open ? 'Hide report' : 'Report'}
           </button>
-          {canUpload && (
+          {canUpload && row.status === 'done' && (
             <button
               type="button"
               className="btn ml-1 h-7 px-2 text-xs"

@@ -1,5 +1,3 @@
-import fs from 'node:fs';
-import path from 'node:path';
 import type pg from 'pg';
 import type { Kysely } from 'kysely';
 import type { Database } from './db/schema';
@@ -206,11 +204,4 @@ export async function ingestStream(
   await flush();
   total.bytes = bytes;
   return total;
-}
-
-/** Where uploaded pass files are kept. */
-export function uploadDir(base: string): string {
-  const dir = path.resolve(base);
-  fs.mkdirSync(dir, { recursive: true });
-  return dir;
 }

@@ -6,6 +6,7 @@ import { idealTorqueConstant } from '../physics/pump';
 import { insertSheet } from './spacecraft';
 import { insertAuditEntry } from './audit';
 import { forgetLoopIds } from './ingest';
+import { EPOCH_2000_UNIX_S } from '../telemetry/types';
 
 /** A change of a loop's ideal torque constant beyond this fraction is called out. */
 export const IDEAL_KT_WARNING_FRACTION = 0.03;
@@ -62,10 +63,44 @@ export async function addSheet(
       .executeTakeFirst();
     if (exists) throw new HttpError('CONFLICT', `A sheet effective from ${sheet.effectiveFrom} is already on record.`, { effectiveFrom: ['another sheet takes effect at this exact time; choose a different time'] });
     const newId = await insertSheet(trx, sc.id, sheet, actorId);
-    await insertAuditEntry(trx, { actorId, action: 'sheet.add', targetType: 'spacecraft', targetId: sc.key, detail: { sheetId: newId, effectiveFrom: sheet.effectiveFrom, idealKtShifts: shifts } });
+    const reanalyse = await markForReanalysis(trx, sc.id, new Date(sheet.effectiveFrom));
+    await insertAuditEntry(trx, {
+      actorId,
+      action: 'sheet.add',
+      targetType: 'spacecraft',
+      targetId: sc.key,
+      detail: { sheetId: newId, effectiveFrom: sheet.effectiveFrom, idealKtShifts: shifts, batchesToReanalyse: reanalyse },
+    });
     await opts.inTransaction?.(trx);
     return newId;
   });
   forgetLoopIds(sc.id);
   return { id, effectiveFrom: sheet.effectiveFrom, idealKtShifts: shifts };
+}
+
+/**
+ * A sheet that takes effect in the past governs data already analysed under the sheet before it:
+ * the ingest batches holding samples from its effective time up to the next sheet's are handed
+ * back to the analysis job, which analyses their windows again under the sheet now in force
+ * (windows are replaced, drift statistics recomputed, limits judged again from there). Returns how
+ * many batches were handed back.
+ */
+export async function markForReanalysis(trx: Transaction<Database>, spacecraftId: number, effectiveFrom: Date): Promise<number> {
+  const next = await trx
+    .selectFrom('spacecraft_sheet')
+    .select('effective_from')
+    .where('spacecraft_id', '=', spacecraftId)
+    .where('effective_from', '>', effectiveFrom)
+    .orderBy('effective_from')
+    .limit(1)
+    .executeTakeFirst();
+  const tag = (d: Date) => Math.floor((d.getTime() / 1000 - EPOCH_2000_UNIX_S) * 65536);
+  let q = trx
+    .updateTable('ingest_batch')
+    .set({ analysed_at: null, analysis_attempts: 0, analysis_error: null })
+    .where('spacecraft_id', '=', spacecraftId)
+    .where('last_time_tag', '>=', tag(effectiveFrom));
+  if (next) q = q.where('first_time_tag', '<', tag(next.effective_from));
+  const r = await q.executeTakeFirst();
+  return Number(r.numUpdatedRows);
 }

@@ -270,19 +270,42 @@ async function copyInto(client: pg.PoolClient, table: string, columns: readonly 
 
 /**
  * Two stored packets of one APID are compared for a sequence gap only when they are at most this
- * far apart in time: beyond it the 14-bit count may have wrapped unseen (at 30 packets/s it wraps
- * in about 9 minutes), and a longer silence is a coverage hole, reported as stale data instead.
+ * far apart in time: beyond it the 14-bit count may have wrapped unseen, and a longer silence is a
+ * coverage hole, reported as stale data instead. The window is set by how fast each APID can
+ * count through 16 384: the 10 Hz housekeeping (30 loop packets/s with three loops) wraps in about
+ * 9 minutes, so 5 minutes; burst captures and event reports come minutes to hours apart, so a
+ * day (16 384 of them in a day would be one every 5 s, far beyond either).
  */
-export const GAP_LINK_S = 300;
+export const GAP_LINK_S: Record<StoredApid, number> = {
+  [APID.attitude]: 300,
+  [APID.loop]: 300,
+  [APID.burst]: 86_400,
+  [APID.event]: 86_400,
+};
 
-async function findGaps(client: pg.PoolClient, spacecraftId: number, table: string, minTt: number, maxTt: number) {
-  const bounds = await client.query<{ lo: number | null; hi: number | null }>(
-    `SELECT (SELECT max(time_tag) FROM ${table} WHERE spacecraft_id = $1 AND time_tag < $2) AS lo,
-            (SELECT min(time_tag) FROM ${table} WHERE spacecraft_id = $1 AND time_tag > $3) AS hi`,
-    [spacecraftId, minTt, maxTt],
+/** Advisory lock key (with the spacecraft id) that serialises gap bookkeeping per spacecraft. */
+const GAP_LOCK = "hashtext('millrace.sequence-gaps')";
+
+/** Packets of one APID stored from `from` to `to` (time tags, inclusive). */
+async function countStored(client: pg.PoolClient, spacecraftId: number, apid: StoredApid, from: number, to: number): Promise<number> {
+  const r = await client.query<{ n: number }>(`SELECT count(*)::int AS n FROM ${PACKET_TABLES[apid].table} WHERE spacecraft_id = $1 AND time_tag BETWEEN $2 AND $3`, [spacecraftId, from, to]);
+  return Number(r.rows[0]!.n);
+}
+
+/** The time tags of the stored packets just before `from` and just after `to` (themselves when there are none). */
+async function neighbours(client: pg.PoolClient, spacecraftId: number, apid: StoredApid, from: number, to: number): Promise<{ lo: number; hi: number }> {
+  const table = PACKET_TABLES[apid].table;
+  const r = await client.query<{ lo: number; hi: number }>(
+    `SELECT coalesce((SELECT max(time_tag) FROM ${table} WHERE spacecraft_id = $1 AND time_tag < $2), $2::bigint) AS lo,
+            coalesce((SELECT min(time_tag) FROM ${table} WHERE spacecraft_id = $1 AND time_tag > $3), $3::bigint) AS hi`,
+    [spacecraftId, from, to],
   );
-  const lo = bounds.rows[0]?.lo ?? minTt;
-  const hi = bounds.rows[0]?.hi ?? maxTt;
+  return { lo: Number(r.rows[0]!.lo), hi: Number(r.rows[0]!.hi) };
+}
+
+/** Sequence gaps between consecutive stored packets of one APID from `lo` to `hi` (time tags, inclusive). */
+async function findGaps(client: pg.PoolClient, spacecraftId: number, apid: StoredApid, lo: number, hi: number) {
+  const table = PACKET_TABLES[apid].table;
   // Packets of one time tag (several loops sampled at once) whose counts straddle the 14-bit wrap
   // are ordered as if the small counts came after 16383.
   const r = await client.query<{ ptt: number; pseq: number; tt: number; seq: number }>(
@@ -297,9 +320,9 @@ async function findGaps(client: pg.PoolClient, spacecraftId: number, table: stri
      ) x
      WHERE pseq IS NOT NULL AND ((seq - pseq + 16384) % 16384) > 1 AND tt - ptt <= $4
      ORDER BY tt`,
-    [spacecraftId, lo, hi, GAP_LINK_S * 65536],
+    [spacecraftId, lo, hi, GAP_LINK_S[apid] * 65536],
   );
-  return { lo, hi, gaps: r.rows };
+  return r.rows;
 }
 
 /**
@@ -358,20 +381,38 @@ export async function storeBatch(
       }
     }
     const gaps: Gap[] = [];
+    // Gaps inside and at the edges of this batch's span, from what is stored now. The search inside
+    // the span (the costly part) runs in parallel with other requests. The rest runs under a
+    // per-spacecraft advisory lock held to COMMIT: the inside is searched again only if packets were
+    // committed into the span meanwhile (its count changed; packets are never removed here), the
+    // edges (the neighbours just outside the span) are always searched then. So of two requests
+    // committing at once (a live pass and a playback, two stations), the second always judges with
+    // the first one's packets and gap rows, and no gap stays open that the other filled.
+    const inside = new Map<StoredApid, { n: number; found: Awaited<ReturnType<typeof findGaps>> }>();
     for (const apid of todo) {
-      const spec = PACKET_TABLES[apid];
-      // Gaps around and inside this batch's span, from what is stored now.
       const [minTt, maxTt] = batch.spanOf(apid)!;
-      const { lo, hi, gaps: found } = await findGaps(client, meta.spacecraftId, spec.table, minTt, maxTt);
-      for (const g of found) {
-        const from = (g.pseq + 1) % 16384;
-        const to = (g.seq + 16383) % 16384;
-        const missing = ((g.seq - g.pseq + 16384) % 16384) - 1;
-        gaps.push({ apid, from, to });
+      inside.set(apid, { n: await countStored(client, meta.spacecraftId, apid, minTt, maxTt), found: await findGaps(client, meta.spacecraftId, apid, minTt, maxTt) });
+    }
+    if (todo.length) await client.query(`SELECT pg_advisory_xact_lock(${GAP_LOCK}, $1)`, [meta.spacecraftId]);
+    for (const apid of todo) {
+      const [minTt, maxTt] = batch.spanOf(apid)!;
+      let { n, found: within } = inside.get(apid)!;
+      const nNow = await countStored(client, meta.spacecraftId, apid, minTt, maxTt);
+      if (nNow !== n) within = await findGaps(client, meta.spacecraftId, apid, minTt, maxTt);
+      const { lo, hi } = await neighbours(client, meta.spacecraftId, apid, minTt, maxTt);
+      const found = [
+        ...(lo < minTt ? (await findGaps(client, meta.spacecraftId, apid, lo, minTt)).filter((g) => g.ptt < minTt) : []),
+        ...within,
+        ...(hi > maxTt ? (await findGaps(client, meta.spacecraftId, apid, maxTt, hi)).filter((g) => g.tt > maxTt) : []),
+      ];
+      if (found.length) {
+        const rows = found.map((g) => ({ from: (g.pseq + 1) % 16384, to: (g.seq + 16383) % 16384, missing: ((g.seq - g.pseq + 16384) % 16384) - 1, after: g.ptt, before: g.tt }));
+        for (const r of rows) gaps.push({ apid, from: r.from, to: r.to });
         await client.query(
           `INSERT INTO sequence_gap (spacecraft_id, apid, from_seq, to_seq, missing, after_time_tag, before_time_tag)
-           VALUES ($1, $2, $3, $4, $5, $6, $7) ON CONFLICT DO NOTHING`,
-          [meta.spacecraftId, apid, from, to, missing, g.ptt, g.tt],
+           SELECT $1, $2, f, t, m, a, b FROM unnest($3::int[], $4::int[], $5::int[], $6::bigint[], $7::bigint[]) AS g(f, t, m, a, b)
+           ON CONFLICT DO NOTHING`,
+          [meta.spacecraftId, apid, rows.map((r) => r.from), rows.map((r) => r.to), rows.map((r) => r.missing), rows.map((r) => r.after), rows.map((r) => r.before)],
         );
       }
       // Open gaps inside the scanned span that no longer show are filled (late playback).

@@ -1,7 +1,7 @@
 import fs from 'node:fs';
 import path from 'node:path';
 import { createHash } from 'node:crypto';
-import { Readable } from 'node:stream';
+import { Readable, pipeline } from 'node:stream';
 import busboy from 'busboy';
 import type pg from 'pg';
 import type { Kysely } from 'kysely';
@@ -54,7 +54,12 @@ export async function receivePacketUpload(
     bb.on('close', () => {
       if (!handled) reject(new HttpError('BAD_REQUEST', 'No file in the field "file".', { file: ['required'] }));
     });
-    Readable.fromWeb(request.body as import('node:stream/web').ReadableStream).pipe(bb);
+    // pipeline, not pipe: a request body that errors (the browser closed, the network dropped)
+    // destroys busboy, which ends the file stream with that error, so the upload is marked
+    // failed; with pipe the error would have no listener and take the server down.
+    pipeline(Readable.fromWeb(request.body as import('node:stream/web').ReadableStream), bb, (err) => {
+      if (err) reject(new HttpError('BAD_REQUEST', `The upload was interrupted before the file was complete: ${err.message}`, { file: ['incomplete'] }));
+    });
   });
 }
 
@@ -70,7 +75,8 @@ async function storeUploadedStream(
     .values({ spacecraft_id: meta.spacecraftId, file_name: fileName || 'pass.bin', stored_path: '', station_id: meta.stationId, uploaded_by: meta.actorId })
     .returning('id')
     .executeTakeFirstOrThrow();
-  const stored = path.join(meta.dir, `${row.id}-${safeName(fileName)}`);
+  // Absolute, so that the kept file is found whatever the working directory of a later process.
+  const stored = path.resolve(meta.dir, `${row.id}-${safeName(fileName)}`);
   await db.updateTable('packet_upload').set({ stored_path: stored }).where('id', '=', row.id).execute();
   const hash = createHash('sha256');
   const out = fs.createWriteStream(stored);
@@ -136,7 +142,13 @@ async function storeUploadedStream(
           'Packets stored before the failure stay stored; once the disk takes writes again, upload the file again (what is already stored counts as duplicates).',
       );
     }
-    await db.updateTable('packet_upload').set({ status: 'failed', report: JSON.stringify({ error: String(err) }) }).where('id', '=', row.id).execute();
+    // Whatever ended it (an interrupted body, a database error), the kept file is partial: remove it.
+    await fs.promises.rm(stored, { force: true }).catch(() => undefined);
+    await db
+      .updateTable('packet_upload')
+      .set({ status: 'failed', stored_path: '', report: JSON.stringify({ error: `the upload ended early: ${(err as Error).message ?? String(err)}` }) })
+      .where('id', '=', row.id)
+      .execute();
     throw err;
   }
 }
@@ -157,8 +169,14 @@ function summary(r: UploadReport) {
 
 /** Ingest a kept pass file again (duplicates are counted, nothing changes twice). */
 export async function reingestUpload(pool: pg.Pool, db: Kysely<Database>, uploadId: number, actorId: string): Promise<UploadReport> {
-  const up = await db.selectFrom('packet_upload').select(['id', 'spacecraft_id', 'station_id', 'stored_path', 'sha256']).where('id', '=', uploadId).executeTakeFirst();
+  const up = await db.selectFrom('packet_upload').select(['id', 'spacecraft_id', 'station_id', 'stored_path', 'sha256', 'status']).where('id', '=', uploadId).executeTakeFirst();
   if (!up) throw new HttpError('NOT_FOUND', `No upload ${uploadId}.`);
+  // Only a complete file is a record of the pass; a failed or unfinished upload kept none.
+  if (up.status !== 'done') {
+    throw new HttpError('CONFLICT', `Upload ${uploadId} is ${up.status}, not done: only a completely received file can be ingested again; upload the file again instead.`, {
+      status: [`is ${up.status}; re-ingest needs done`],
+    });
+  }
   if (!up.stored_path || !fs.existsSync(up.stored_path)) throw new HttpError('NOT_FOUND', `The file of upload ${uploadId} is no longer on disk.`);
   const r = await ingestStream(pool, db, fs.createReadStream(up.stored_path, { highWaterMark: 1 << 20 }), {
     spacecraftId: up.spacecraft_id,

@@ -6,6 +6,7 @@ import { symmetricEigenvalues3 } from '../../../src/lib/physics/eigen3';
 import { idealTorqueConstant } from '../../../src/lib/physics/pump';
 import { tleEpochMs } from '../../../ingest/sim/orbit';
 import { INGEST_DIR } from './feed-helpers';
+import { playbackTimelineStart } from '../../../ingest/demo-fleet';
 
 const KEYS = ['MR-1', 'MR-2', 'MR-3'] as const;
 const raw = (key: string): unknown => JSON.parse(readFileSync(`${INGEST_DIR}fleet/${key}.json`, 'utf8'));
@@ -74,5 +75,19 @@ describe('demo fleet sheets', () => {
         expect(alt).toBeLessThan(620);
       }
     }
+  });
+});
+
+describe('the demo feed asked for a playback', () => {
+  const now = Date.UTC(2026, 11, 2, 12, 0, 0, 250);
+  it('starts its timeline the asked hours before now, so the day played back has passed', () => {
+    expect(playbackTimelineStart(['--playback', '--hours', '24'], now)).toBe(Date.UTC(2026, 11, 1, 12));
+    expect(playbackTimelineStart(['--playback', '--hours', '1.5'], now)).toBe(Date.UTC(2026, 11, 2, 10, 30));
+    expect(playbackTimelineStart(['--playback'], now)).toBe(Date.UTC(2026, 11, 1, 12)); // the feed's default, 24 h
+  });
+  it('leaves a real-time run, or hours the feed will refuse, to the usual start', () => {
+    expect(playbackTimelineStart([], now)).toBeNull();
+    expect(playbackTimelineStart(['--station', 'north-fell'], now)).toBeNull();
+    expect(playbackTimelineStart(['--playback', '--hours', 'many'], now)).toBeNull();
   });
 });

@@ -2,9 +2,10 @@ import { mkdtempSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
-import { FAULT_KINDS, ScenarioError, checkScenarioAgainstSheet, loadScenarioFile, parseScenario } from '../../../ingest/scenario.schema';
+import { FAULT_KINDS, PULSATION_MAX_HZ, ScenarioError, checkScenarioAgainstSheet, loadScenarioFile, parseScenario } from '../../../ingest/scenario.schema';
 import { effectivenessAt, factorAt, gyroBiasAt, pulsationsAt, rampFraction } from '../../../ingest/sim/faults';
 import { INGEST_DIR, loadScenario, loadSheet } from './feed-helpers';
+import { BURST_RATE_HZ } from '../../../ingest/sim/spacecraft-sim';
 import { BACKFILL_HOURS, BACKFILL_SCENARIOS } from '../../../ingest/demo-fleet';
 import { BASELINE_WINDOWS } from '../../../src/lib/server/analysis-job';
 
@@ -82,6 +83,13 @@ describe('scenario validation errors', () => {
     expect(problems).toContain('faults[2].apid: apid must be one of 16, 32, 48, 64');
     expect(problems).toContain('faults[2].count: count must be at least 1');
     expect(problems.some((i) => i.startsWith('faults[3].bias_rad_s'))).toBe(true);
+  });
+
+  it('refuses a pulsation at or above half the burst capture rate, which the captures would alias', () => {
+    expect(PULSATION_MAX_HZ).toBe(BURST_RATE_HZ / 2);
+    const scenario = (f: number) => ({ name: 'x', faults: [{ kind: 'pulsation', loopId: 0, start_s: 0, frequency_Hz: f, amplitude_Pa: 10 }] });
+    expect(parseScenario(scenario(199), 'test.json').faults).toHaveLength(1);
+    expect(problemsOf(scenario(200))).toEqual(['faults[0].frequency_Hz: frequency_Hz must be below 200, half the burst capture rate: a higher one would be captured at a false (aliased) frequency']);
   });
 
   it('refuses unknown keys and missing required fields', () => {
