@@ -155,12 +155,17 @@ test.describe('as the engineer', () => {
     bad.effectiveFrom = '2026-11-15T00:00:00Z';
     bad.loops[0].axis = [1, 1, 0];
     bad.loops[0].channel.alongField_m = -0.004;
+    bad.loops[0].shape.cornerRadius_m = 0;
+    bad.loops[0].fluids = bad.loops[0].fluid; // misspelt: named, not quietly replaced by the defaults
+    delete bad.loops[0].fluid;
     await page.getByLabel('Choose a .json file', { exact: true }).setInputFiles({ name: 'MR-2-bad.json', mimeType: 'application/json', buffer: Buffer.from(JSON.stringify(bad, null, 2)) });
     await expect(text).toHaveValue(/"alongField_m": -0.004/);
     await page.getByRole('button', { name: 'Upload sheet' }).click();
     const problems = page.getByRole('list', { name: 'Problems by JSON path' });
     await expect(problems.getByRole('listitem', { name: 'loops[0].axis' })).toContainText('axis must be a unit vector');
     await expect(problems.getByRole('listitem', { name: 'loops[0].channel.alongField_m' })).toContainText('alongField_m must be greater than 0');
+    await expect(problems.getByRole('listitem', { name: 'loops[0].shape.cornerRadius_m' })).toContainText('cornerRadius_m must be greater than 0');
+    await expect(problems.getByRole('listitem', { name: 'loops[0].fluids' })).toContainText('"fluids" is not a field of the sheet here');
     await shot(page, 'sheets-errors');
 
     // A valid copy with a later effective time.
