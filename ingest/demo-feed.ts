@@ -1,6 +1,11 @@
 // The demo fleet's feed, as `npm start` runs it: fresh ingest tokens for the demo spacecraft (the
 // previous demo-feed tokens are revoked), a feed configuration under .data/, then the feed itself
-// in real time (after a short playback when the database holds no telemetry yet). `npm run feed -- --playback --hours 24` passes its arguments on to the feed.
+// in real time (after a short playback when the database holds no telemetry yet).
+//
+// `npm run feed -- --playback --hours 24` passes its arguments on to the feed, for a playback of
+// its own: its own tokens and configuration file (a running demo feed keeps its tokens and its
+// timeline), and a timeline that ends an hour before the first telemetry already stored of each
+// spacecraft (or now, when there is none), so that two simulated timelines never mix in one span.
 import fs from 'node:fs';
 import path from 'node:path';
 import { spawn } from 'node:child_process';
@@ -8,14 +13,16 @@ import { db } from '../src/lib/server/db';
 import { createIngestToken } from '../src/lib/server/ingest-tokens';
 import { findSheetInForce } from '../src/lib/server/spacecraft';
 import { config } from '../src/lib/server/config';
-import { BACKFILL_HOURS, BACKFILL_SCENARIOS, SCENARIOS, playbackTimelineStart } from './demo-fleet';
+import { BACKFILL_HOURS, BACKFILL_SCENARIOS, PLAYBACK_CLEARANCE_MS, SCENARIOS, playbackTimelineStart } from './demo-fleet';
 import { writeConfigStations } from './passes';
 
-const LABEL = 'demo feed';
+const argv = process.argv.slice(2);
+const playbackRun = argv.includes('--playback');
+const LABEL = playbackRun ? 'demo playback' : 'demo feed';
 /** How often the ground stations are read again from the database (the feed follows the configuration file within a minute). */
 const STATION_REREAD_MS = 10 * 60_000;
 
-const file = path.resolve('.data/demo-feed.json');
+const file = path.resolve(playbackRun ? '.data/demo-playback.json' : '.data/demo-feed.json');
 // A restart within a few hours resumes the same simulated timeline (the sim regenerates it
 // exactly, sequence counts included), so a restart does not look like a spacecraft reboot.
 const RESUME_WITHIN_MS = 6 * 3600_000;
@@ -25,7 +32,7 @@ const RESUME_WITHIN_MS = 6 * 3600_000;
 let startedAtMs = Math.floor(Date.now() / 1000) * 1000;
 // a resumed timeline keeps the scenario each spacecraft flew
 let previousScenario = new Map<string, string>();
-try {
+if (!playbackRun) try {
   const previous = JSON.parse(fs.readFileSync(file, 'utf8')) as { spacecraft?: { key?: string; scenario?: string; startedAtMs?: number }[] };
   const was = previous.spacecraft?.[0]?.startedAtMs;
   if (was && Date.now() - was < RESUME_WITHIN_MS) {
@@ -37,16 +44,19 @@ try {
 }
 const empty = !(await db.selectFrom('loop_sample').select('spacecraft_id').limit(1).executeTakeFirst());
 // with nothing stored there is no earlier timeline to stay consistent with
-const backfill = empty && process.argv.length <= 2;
+const backfill = empty && argv.length === 0;
 if (backfill) {
   startedAtMs = Math.floor(Date.now() / 1000) * 1000 - BACKFILL_HOURS * 3600_000;
   previousScenario = new Map();
 }
-// A playback asked for on the command line covers the hours just past, not the hours to come.
-const asked = playbackTimelineStart(process.argv.slice(2), Date.now());
-if (asked !== null) {
-  startedAtMs = asked;
-  previousScenario = new Map();
+/** Time of the first telemetry stored of a spacecraft, ms (Infinity when there is none). */
+async function firstStoredMs(spacecraftId: number): Promise<number> {
+  const [a, l] = await Promise.all([
+    db.selectFrom('attitude_sample').select((eb) => eb.fn.min('t').as('t')).where('spacecraft_id', '=', spacecraftId).executeTakeFirst(),
+    db.selectFrom('loop_sample').select((eb) => eb.fn.min('t').as('t')).where('spacecraft_id', '=', spacecraftId).executeTakeFirst(),
+  ]);
+  const times = [a?.t, l?.t].filter((t): t is Date => t instanceof Date).map((t) => t.getTime());
+  return times.length ? Math.min(...times) : Infinity;
 }
 const scenarioOf = (key: string) => previousScenario.get(key) ?? path.resolve((backfill ? BACKFILL_SCENARIOS : SCENARIOS)[key] ?? 'ingest/scenarios/healthy.json');
 const fleet = await db.selectFrom('spacecraft').select(['id', 'key']).orderBy('key').execute();
@@ -56,7 +66,9 @@ for (const sc of fleet) {
   if (!sheet) continue;
   await db.updateTable('ingest_token').set({ revoked_at: new Date() }).where('spacecraft_id', '=', sc.id).where('label', '=', LABEL).where('revoked_at', 'is', null).execute();
   const { token } = await createIngestToken(db, sc.id, LABEL, null);
-  spacecraft.push({ key: sc.key, token, sheet: sheet.sheet, scenario: scenarioOf(sc.key), startedAtMs });
+  // A playback asked for on the command line covers hours that have passed, before what is stored.
+  const start = playbackRun ? playbackTimelineStart(argv, Math.min(Date.now(), (await firstStoredMs(sc.id)) - PLAYBACK_CLEARANCE_MS)) : null;
+  spacecraft.push({ key: sc.key, token, sheet: sheet.sheet, scenario: scenarioOf(sc.key), startedAtMs: start ?? startedAtMs });
 }
 // The feed predicts its passes with the same element sets and stations the app stores passes from.
 const readStations = () => db.selectFrom('ground_station').select(['key', 'latitude_deg', 'longitude_deg', 'altitude_m', 'elevation_mask_deg']).orderBy('key').execute();
@@ -95,4 +107,4 @@ if (backfill) {
   const code = await feed(['--playback', '--hours', String(BACKFILL_HOURS)]);
   if (code !== 0 || stopping) await exit(code);
 }
-await exit(await feed(process.argv.slice(2)));
+await exit(await feed(argv));

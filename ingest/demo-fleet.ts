@@ -10,14 +10,21 @@ export const BACKFILL_HOURS = 2;
 export const BACKFILL_SCENARIOS: Record<string, string> = { ...SCENARIOS, 'MR-1': 'ingest/scenarios/demo-recorded.json' };
 
 /**
- * Where the simulated timeline starts when the feed is asked for a playback (`--playback
- * [--hours h]`, 24 h by default, as the feed itself reads them): `hours` before now, so that the
- * day played back is the day just past; null for a real-time run.
+ * A playback asked for on the command line ends this long before the first telemetry stored of a
+ * spacecraft: longer than any APID's sequence-gap link window, so that the jump in sequence counts
+ * between the two simulated timelines is not read as lost packets.
  */
-export function playbackTimelineStart(args: readonly string[], nowMs: number): number | null {
+export const PLAYBACK_CLEARANCE_MS = 2 * 3_600_000;
+
+/**
+ * Where the simulated timeline starts when the feed is asked for a playback (`--playback
+ * [--hours h]`, 24 h by default, as the feed itself reads them): `hours` before `endMs`, so that
+ * the hours played back have passed; null for a real-time run.
+ */
+export function playbackTimelineStart(args: readonly string[], endMs: number): number | null {
   if (!args.includes('--playback')) return null;
   const i = args.indexOf('--hours');
   const hours = i >= 0 ? Number(args[i + 1]) : 24;
   if (!(Number.isFinite(hours) && hours > 0)) return null; // the feed refuses it with its usage
-  return Math.floor(nowMs / 1000) * 1000 - Math.round(hours * 3_600_000);
+  return Math.floor(endMs / 1000) * 1000 - Math.round(hours * 3_600_000);
 }

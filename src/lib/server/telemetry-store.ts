@@ -271,16 +271,17 @@ async function copyInto(client: pg.PoolClient, table: string, columns: readonly 
 /**
  * Two stored packets of one APID are compared for a sequence gap only when they are at most this
  * far apart in time: beyond it the 14-bit count may have wrapped unseen, and a longer silence is a
- * coverage hole, reported as stale data instead. The window is set by how fast each APID can
- * count through 16 384: the 10 Hz housekeeping (30 loop packets/s with three loops) wraps in about
- * 9 minutes, so 5 minutes; burst captures and event reports come minutes to hours apart, so a
- * day (16 384 of them in a day would be one every 5 s, far beyond either).
+ * coverage hole, reported as stale data instead. The window follows how fast each APID counts
+ * through 16 384: the 10 Hz housekeeping (30 loop packets/s with three loops) wraps in about 9
+ * minutes, so 5 minutes; burst captures and event reports come minutes apart, so an hour. Not
+ * longer: after a silence of hours the spacecraft may well have restarted its counters (a reboot),
+ * and that jump is not a run of lost packets.
  */
 export const GAP_LINK_S: Record<StoredApid, number> = {
   [APID.attitude]: 300,
   [APID.loop]: 300,
-  [APID.burst]: 86_400,
-  [APID.event]: 86_400,
+  [APID.burst]: 3_600,
+  [APID.event]: 3_600,
 };
 
 /** Advisory lock key (with the spacecraft id) that serialises gap bookkeeping per spacecraft. */

@@ -6,7 +6,8 @@ import { symmetricEigenvalues3 } from '../../../src/lib/physics/eigen3';
 import { idealTorqueConstant } from '../../../src/lib/physics/pump';
 import { tleEpochMs } from '../../../ingest/sim/orbit';
 import { INGEST_DIR } from './feed-helpers';
-import { playbackTimelineStart } from '../../../ingest/demo-fleet';
+import { PLAYBACK_CLEARANCE_MS, playbackTimelineStart } from '../../../ingest/demo-fleet';
+import { GAP_LINK_S } from '../../../src/lib/server/telemetry-store';
 
 const KEYS = ['MR-1', 'MR-2', 'MR-3'] as const;
 const raw = (key: string): unknown => JSON.parse(readFileSync(`${INGEST_DIR}fleet/${key}.json`, 'utf8'));
@@ -79,15 +80,18 @@ describe('demo fleet sheets', () => {
 });
 
 describe('the demo feed asked for a playback', () => {
-  const now = Date.UTC(2026, 11, 2, 12, 0, 0, 250);
-  it('starts its timeline the asked hours before now, so the day played back has passed', () => {
-    expect(playbackTimelineStart(['--playback', '--hours', '24'], now)).toBe(Date.UTC(2026, 11, 1, 12));
-    expect(playbackTimelineStart(['--playback', '--hours', '1.5'], now)).toBe(Date.UTC(2026, 11, 2, 10, 30));
-    expect(playbackTimelineStart(['--playback'], now)).toBe(Date.UTC(2026, 11, 1, 12)); // the feed's default, 24 h
+  const end = Date.UTC(2026, 11, 2, 12, 0, 0, 250);
+  it('starts its timeline the asked hours before its end, so the hours played back have passed', () => {
+    expect(playbackTimelineStart(['--playback', '--hours', '24'], end)).toBe(Date.UTC(2026, 11, 1, 12));
+    expect(playbackTimelineStart(['--playback', '--hours', '1.5'], end)).toBe(Date.UTC(2026, 11, 2, 10, 30));
+    expect(playbackTimelineStart(['--playback'], end)).toBe(Date.UTC(2026, 11, 1, 12)); // the feed's default, 24 h
   });
   it('leaves a real-time run, or hours the feed will refuse, to the usual start', () => {
-    expect(playbackTimelineStart([], now)).toBeNull();
-    expect(playbackTimelineStart(['--station', 'north-fell'], now)).toBeNull();
-    expect(playbackTimelineStart(['--playback', '--hours', 'many'], now)).toBeNull();
+    expect(playbackTimelineStart([], end)).toBeNull();
+    expect(playbackTimelineStart(['--station', 'north-fell'], end)).toBeNull();
+    expect(playbackTimelineStart(['--playback', '--hours', 'many'], end)).toBeNull();
+  });
+  it('ends clear of the stored telemetry by more than any sequence-gap link window', () => {
+    expect(PLAYBACK_CLEARANCE_MS).toBeGreaterThan(Math.max(...Object.values(GAP_LINK_S)) * 1000);
   });
 });
