@@ -3,9 +3,10 @@
 // in real time (after a short playback when the database holds no telemetry yet).
 //
 // `npm run feed -- --playback --hours 24` passes its arguments on to the feed, for a playback of
-// its own: its own tokens and configuration file (a running demo feed keeps its tokens and its
-// timeline), and a timeline that ends an hour before the first telemetry already stored of each
-// spacecraft (or now, when there is none), so that two simulated timelines never mix in one span.
+// its own: its own tokens (revoked when it ends) and configuration file, so a running demo feed
+// keeps its tokens and its timeline; and a timeline that ends two hours before the first telemetry
+// already stored of each spacecraft (or now, when there is none), so that two simulated timelines
+// never mix in one span.
 import fs from 'node:fs';
 import path from 'node:path';
 import { spawn } from 'node:child_process';
@@ -94,6 +95,8 @@ let stopping = false;
 for (const sig of ['SIGINT', 'SIGTERM'] as const) process.on(sig, () => { stopping = true; child?.kill(sig); });
 const exit = async (code: number) => {
   clearInterval(reread);
+  // a playback's tokens served that playback only
+  if (playbackRun) await db.updateTable('ingest_token').set({ revoked_at: new Date() }).where('label', '=', LABEL).where('revoked_at', 'is', null).execute().catch(() => undefined);
   await db.destroy().catch(() => undefined);
   process.exit(code);
 };
