@@ -6,6 +6,7 @@ import { spacecraftSheetSchema, type SpacecraftSheet } from '../../src/lib/space
 import { insertSpacecraftWithSheet } from '../../src/lib/server/spacecraft';
 import { quantityInfo } from '../../src/lib/limits/quantities';
 import type { TripState } from '../../src/lib/server/db/schema';
+import { tripRow } from '../integration/trip-rows';
 
 // Trips written straight into the table on a spacecraft of this spec's own (the list is read as it
 // is stored; how trips are raised is the integration tests' business).
@@ -36,25 +37,16 @@ test.beforeAll(async () => {
     const onset = onsetOf(i);
     const row = await db
       .insertInto('trip')
-      .values({
-        spacecraft_id: sc.id,
-        loop_id: s.loop,
-        kind: s.kind,
-        quantity: s.quantity,
-        level: s.level,
-        side: 'high',
-        state: s.state,
-        limit_set_version: 1,
-        onset_at: onset,
-        raised_at: new Date(onset.getTime() + 60_000),
-        cleared_at: s.state === 'resolved' ? new Date(onset.getTime() + 5 * 60_000) : null,
-        value: 31.5,
-        peak_value: 32,
-        limit_value: 30,
-        last_value: 31.5,
-        last_at: onset,
-        evidence: JSON.stringify({ rule: { cautionHigh: 30, warningHigh: 40, cautionLow: null, warningLow: null, clearHigh: 29, clearLow: null, persistence: 3 }, quantity: { key: info.key, label: info.label, unit: info.unit, source: info.source }, points: [], window: { from: onset.getTime(), to: onset.getTime() } }),
-      })
+      .values(
+        tripRow({ spacecraftId: sc.id, loop: s.loop, kind: s.kind, quantity: s.quantity, level: s.level, state: s.state, onset }, 60_000, {
+          cleared_at: s.state === 'resolved' ? new Date(onset.getTime() + 5 * 60_000) : null,
+          value: 31.5,
+          peak_value: 32,
+          limit_value: 30,
+          last_value: 31.5,
+          evidence: JSON.stringify({ rule: { cautionHigh: 30, warningHigh: 40, cautionLow: null, warningLow: null, clearHigh: 29, clearLow: null, persistence: 3 }, quantity: { key: info.key, label: info.label, unit: info.unit, source: info.source }, points: [], window: { from: onset.getTime(), to: onset.getTime() } }),
+        }),
+      )
       .returning('id')
       .executeTakeFirstOrThrow();
     ids.push(row.id);

@@ -415,15 +415,7 @@ describe('exports and raw samples', () => {
     const col = (name: string) => header.indexOf(name);
     expect(col('effectiveness')).toBeGreaterThan(0);
     expect(col('ledger_residual_nm')).toBeGreaterThan(0);
-    const stored = await db
-      .selectFrom('loop_window')
-      .select(['window_start', 'effectiveness', 'drift_cusum_lo'])
-      .where('spacecraft_id', '=', flown.sc.id)
-      .where('loop_id', '=', 0)
-      .where('window_start', '>=', new Date(ev.span.from))
-      .where('window_start', '<', new Date(ev.span.to))
-      .orderBy('window_start')
-      .execute();
+    const stored = await loopWindowsOf(ev);
     const byTime = new Map(rows.map((r) => [r[0]!, r]));
     for (const s of stored) {
       const r = byTime.get(s.window_start.toISOString());

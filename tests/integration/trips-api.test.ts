@@ -4,6 +4,7 @@ import { db, clientAs, Client } from './support';
 import { spacecraftSheetSchema, type SpacecraftSheet } from '../../src/lib/spacecraft-sheet.schema';
 import { insertSpacecraftWithSheet } from '../../src/lib/server/spacecraft';
 import type { TripState } from '../../src/lib/server/db/schema';
+import { tripRow } from './trip-rows';
 
 /**
  * GET /api/trips over trips written straight into the table: two fresh spacecraft, a known set of
@@ -79,24 +80,15 @@ beforeAll(async () => {
     const onset = min(s.onsetMin);
     const row = await db
       .insertInto('trip')
-      .values({
-        spacecraft_id: scIds.get(s.sc)!,
-        loop_id: s.loop,
-        kind: s.kind,
-        quantity: s.quantity,
-        level: s.level,
-        side: 'high',
-        state: s.state,
-        limit_set_version: 1,
-        onset_at: onset,
-        raised_at: new Date(onset.getTime() + 30_000),
-        value: 1,
-        peak_value: 1,
-        limit_value: 0.5,
-        last_value: 1,
-        last_at: onset,
-        evidence: JSON.stringify({}),
-      })
+      .values(
+        tripRow({ spacecraftId: scIds.get(s.sc)!, loop: s.loop, kind: s.kind, quantity: s.quantity, level: s.level, state: s.state, onset }, 30_000, {
+          value: 1,
+          peak_value: 1,
+          limit_value: 0.5,
+          last_value: 1,
+          evidence: JSON.stringify({}),
+        }),
+      )
       .returning('id')
       .executeTakeFirstOrThrow();
     ids.set(s, row.id);

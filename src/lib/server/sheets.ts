@@ -6,7 +6,7 @@ import { idealTorqueConstant } from '../physics/pump';
 import { insertSheet } from './spacecraft';
 import { insertAuditEntry } from './audit';
 import { forgetLoopIds } from './ingest';
-import { EPOCH_2000_UNIX_S } from '../telemetry/types';
+import { timeTagOf } from './analysis-store';
 
 /** A change of a loop's ideal torque constant beyond this fraction is called out. */
 export const IDEAL_KT_WARNING_FRACTION = 0.03;
@@ -94,7 +94,7 @@ export async function markForReanalysis(trx: Transaction<Database>, spacecraftId
     .orderBy('effective_from')
     .limit(1)
     .executeTakeFirst();
-  const tag = (d: Date) => Math.floor((d.getTime() / 1000 - EPOCH_2000_UNIX_S) * 65536);
+  const tag = (d: Date) => timeTagOf(d.getTime() / 1000);
   let q = trx
     .updateTable('ingest_batch')
     .set({ analysed_at: null, analysis_attempts: 0, analysis_error: null })

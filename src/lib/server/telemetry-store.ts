@@ -389,15 +389,15 @@ export async function storeBatch(
     // edges (the neighbours just outside the span) are always searched then. So of two requests
     // committing at once (a live pass and a playback, two stations), the second always judges with
     // the first one's packets and gap rows, and no gap stays open that the other filled.
-    const inside = new Map<StoredApid, { n: number; found: Awaited<ReturnType<typeof findGaps>> }>();
+    const inside = new Map<StoredApid, { minTt: number; maxTt: number; n: number; found: Awaited<ReturnType<typeof findGaps>> }>();
     for (const apid of todo) {
       const [minTt, maxTt] = batch.spanOf(apid)!;
-      inside.set(apid, { n: await countStored(client, meta.spacecraftId, apid, minTt, maxTt), found: await findGaps(client, meta.spacecraftId, apid, minTt, maxTt) });
+      inside.set(apid, { minTt, maxTt, n: await countStored(client, meta.spacecraftId, apid, minTt, maxTt), found: await findGaps(client, meta.spacecraftId, apid, minTt, maxTt) });
     }
     if (todo.length) await client.query(`SELECT pg_advisory_xact_lock(${GAP_LOCK}, $1)`, [meta.spacecraftId]);
     for (const apid of todo) {
-      const [minTt, maxTt] = batch.spanOf(apid)!;
-      let { n, found: within } = inside.get(apid)!;
+      const { minTt, maxTt, n } = inside.get(apid)!;
+      let within = inside.get(apid)!.found;
       const nNow = await countStored(client, meta.spacecraftId, apid, minTt, maxTt);
       if (nNow !== n) within = await findGaps(client, meta.spacecraftId, apid, minTt, maxTt);
       const { lo, hi } = await neighbours(client, meta.spacecraftId, apid, minTt, maxTt);
